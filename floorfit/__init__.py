@@ -1,0 +1,42 @@
+"""floorfit: will this vehicle fit this floor plan?
+
+The library mirrors the command line::
+
+    import floorfit
+    plan = floorfit.load_plan("site.dxf")                 # obstacles in metres
+    vehicle = floorfit.load_vehicle("robot.toml")         # footprint, margin, motion
+    slices = floorfit.build_slices(plan, vehicle)         # C-free per heading slice
+    roadmap = floorfit.build_roadmap(slices)              # networkx graph of cells
+    result = floorfit.find_route(plan, vehicle, (x, y, h), (x, y, h))
+
+Heavy modules are imported on first use so that ``floorfit --version`` stays instant.
+"""
+
+from __future__ import annotations
+
+import importlib
+
+__version__ = "0.1.0"
+
+_LAZY = {
+    "Plan": "floorfit.plan",
+    "load_plan": "floorfit.dxfimport",
+    "Vehicle": "floorfit.vehicle",
+    "load_vehicle": "floorfit.vehicle",
+    "rectangle_vehicle": "floorfit.vehicle",
+    "SliceSet": "floorfit.cspace",
+    "build_slices": "floorfit.cspace",
+    "build_roadmap": "floorfit.roadmap",
+    "find_route": "floorfit.route",
+    "RouteResult": "floorfit.route",
+    "run_check": "floorfit.check",
+    "FloorfitError": "floorfit.errors",
+}
+
+__all__ = sorted(_LAZY) + ["__version__"]
+
+
+def __getattr__(name: str):
+    if name in _LAZY:
+        return getattr(importlib.import_module(_LAZY[name]), name)
+    raise AttributeError(f"module 'floorfit' has no attribute {name!r}")

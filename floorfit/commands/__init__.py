@@ -1,0 +1,1 @@
+"""Sub-commands of the ``floorfit`` command line, one module each (discovered automatically)."""
