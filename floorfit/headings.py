@@ -1,0 +1,153 @@
+"""The heading circle: wrapping, shorter-arc differences and the choice of heading slices.
+
+Headings are in degrees, counter-clockwise from the drawing's +x axis, wrapped to
+[-180, 180). The configuration space is the plane times this circle; it is cut into
+*heading cells*, each represented by one slice heading. A cell runs from the midpoint
+to the previous slice heading to the midpoint to the next one, so the cells cover the
+whole circle and the last cell is adjacent to the first.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import shapely
+
+__all__ = ["wrap_deg", "arc_deg", "interpolate_heading", "default_step_deg", "rotation_displacement_m",
+           "dominant_directions_deg", "HeadingCells", "make_heading_cells", "STEP_CHOICES_DEG",
+           "TARGET_ROTATION_ERROR_M"]
+
+#: Candidate uniform steps, degrees (each divides 360).
+STEP_CHOICES_DEG = (5.0, 4.0, 3.0, 2.5, 2.0, 1.5, 1.25, 1.0)
+#: The default step is the coarsest candidate whose rotation error stays below this, metres.
+TARGET_ROTATION_ERROR_M = 0.01
+#: Two slice headings closer than this (degrees) are merged.
+MERGE_DEG = 1e-6
+
+
+def wrap_deg(h):
+    """Wrap heading(s) in degrees to [-180, 180)."""
+    return (np.asarray(h, dtype=float) + 180.0) % 360.0 - 180.0
+
+
+def arc_deg(a, b):
+    """Signed shorter arc from heading ``a`` to heading ``b``, degrees in [-180, 180)."""
+    return wrap_deg(np.asarray(b, dtype=float) - np.asarray(a, dtype=float))
+
+
+def interpolate_heading(a: float, b: float, t):
+    """Heading at fraction ``t`` of the shorter-arc rotation from ``a`` to ``b`` (degrees)."""
+    return wrap_deg(a + np.asarray(t, dtype=float) * arc_deg(a, b))
+
+
+def rotation_displacement_m(radius_m: float, angle_deg: float) -> float:
+    """Largest displacement of a point at ``radius_m`` rotated by ``angle_deg``: 2ρ·sin(Δθ/2)."""
+    return 2.0 * radius_m * math.sin(math.radians(abs(angle_deg)) / 2.0)
+
+
+def default_step_deg(radius_m: float, target_m: float = TARGET_ROTATION_ERROR_M) -> float:
+    """Coarsest step in :data:`STEP_CHOICES_DEG` whose half-cell rotation moves no point more than ``target_m``.
+
+    Falls back to the finest candidate (1°) for very large vehicles; the tolerance then
+    reported is correspondingly larger.
+    """
+    for step in STEP_CHOICES_DEG:
+        if rotation_displacement_m(radius_m, step / 2.0) <= target_m:
+            return step
+    return STEP_CHOICES_DEG[-1]
+
+
+def dominant_directions_deg(lines, *, count: int = 2, min_share: float = 0.05) -> list[float]:
+    """Principal directions of straight linework, degrees in [0, 90).
+
+    Directions are taken modulo 90° (a wall at 17.5° also implies walls at 107.5°) and
+    weighted by segment length; peaks with at least ``min_share`` of the total length are
+    returned, strongest first, at most ``count``.
+    """
+    if len(lines) == 0:
+        return []
+    coords, idx = shapely.get_coordinates(np.asarray(lines), return_index=True)
+    same = idx[1:] == idx[:-1]
+    d = (coords[1:] - coords[:-1])[same]
+    length = np.hypot(d[:, 0], d[:, 1])
+    keep = length > 0
+    if not np.any(keep):
+        return []
+    ang = np.degrees(np.arctan2(d[keep, 1], d[keep, 0])) % 90.0
+    w = length[keep]
+    bins = np.round(ang * 20.0).astype(int) % 1800          # 0.05° bins
+    hist = np.bincount(bins, weights=w, minlength=1800)
+    out: list[float] = []
+    total = w.sum()
+    for b in np.argsort(hist)[::-1]:
+        if hist[b] < min_share * total or len(out) >= count:
+            break
+        centre = b / 20.0
+        if any(abs(((centre - o) + 45) % 90 - 45) < 1.0 for o in out):
+            continue
+        sel = np.abs(((ang - centre) + 45) % 90 - 45) <= 0.05
+        mean = centre + float(np.average(((ang[sel] - centre) + 45) % 90 - 45, weights=w[sel]))
+        out.append(round(mean % 90.0, 6))
+    return out
+
+
+@dataclass(frozen=True)
+class HeadingCells:
+    """Slice headings and their cells on the circle, degrees.
+
+    ``headings[k]`` is slice k's heading; its cell spans ``[headings[k] - below[k],
+    headings[k] + above[k]]``. ``max_turn[k] = max(below, above)`` is the largest rotation
+    from the slice heading that stays in the cell.
+    """
+
+    headings: np.ndarray
+    below: np.ndarray
+    above: np.ndarray
+    step_deg: float
+
+    def __len__(self) -> int:
+        return len(self.headings)
+
+    @property
+    def max_turn(self) -> np.ndarray:
+        return np.maximum(self.below, self.above)
+
+    def index_of(self, heading_deg: float) -> int:
+        """Index of the cell containing ``heading_deg`` (ties go to the nearer slice heading)."""
+        d = np.abs(arc_deg(self.headings, heading_deg))
+        return int(np.argmin(d))
+
+    def indices_of(self, headings_deg) -> np.ndarray:
+        """Vectorised :meth:`index_of`."""
+        h = np.asarray(headings_deg, dtype=float)
+        d = np.abs(arc_deg(self.headings[None, :], h[:, None]))
+        return np.argmin(d, axis=1)
+
+
+def make_heading_cells(step_deg: float, extra_deg=(), *, only=None) -> HeadingCells:
+    """Uniform headings every ``step_deg`` plus ``extra_deg`` (wall directions, start/goal).
+
+    With ``only`` (a list of headings) the set is exactly those headings; a single heading
+    gives a cell of zero width (a vehicle that never rotates).
+    """
+    if only is not None:
+        hs = np.unique(np.round(wrap_deg(np.asarray(list(only), dtype=float)), 9))
+    else:
+        if not (0 < step_deg <= 90):
+            raise ValueError("heading step must be in (0, 90] degrees")
+        n = int(round(360.0 / step_deg))
+        base = -180.0 + np.arange(n) * (360.0 / n)
+        hs = np.concatenate([base, wrap_deg(np.asarray(list(extra_deg), dtype=float))])
+        hs = np.sort(np.round(hs, 9))
+        keep = np.concatenate([[True], np.diff(hs) > MERGE_DEG])
+        hs = hs[keep]
+        if len(hs) > 1 and (hs[0] + 360.0 - hs[-1]) <= MERGE_DEG:
+            hs = hs[:-1]
+    if len(hs) == 1:
+        z = np.zeros(1)
+        return HeadingCells(hs, z, z, 0.0)
+    gaps_next = np.diff(np.concatenate([hs, [hs[0] + 360.0]]))      # to next slice
+    gaps_prev = np.roll(gaps_next, 1)
+    return HeadingCells(hs, gaps_prev / 2.0, gaps_next / 2.0, float(step_deg))

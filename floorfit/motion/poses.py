@@ -1,0 +1,85 @@
+"""Poses and angles inside :mod:`floorfit.motion`.
+
+A pose is ``(x, y, heading)``: x and y in metres, heading in **radians**,
+counter-clockwise from +x. The rest of floorfit speaks degrees at its boundary;
+:func:`pose_from_degrees` and :func:`pose_to_degrees` convert one pose or an
+``(N, 3)`` array of poses. For car-like vehicles the reference point is the
+centre of the rear axle.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Sequence
+
+import numpy as np
+
+from floorfit.errors import InputError
+
+__all__ = [
+    "Pose",
+    "wrap_angle",
+    "as_pose",
+    "relative_pose",
+    "pose_from_degrees",
+    "pose_to_degrees",
+]
+
+Pose = tuple[float, float, float]
+"""(x m, y m, heading rad)."""
+
+_TWO_PI = 2.0 * math.pi
+
+
+def wrap_angle(angle_rad):
+    """Wrap an angle (radians, scalar or array) into [-pi, pi)."""
+    return np.remainder(np.asarray(angle_rad, dtype=float) + math.pi, _TWO_PI) - math.pi
+
+
+def as_pose(value: Sequence[float], what: str = "pose") -> Pose:
+    """Check and convert ``value`` to a pose ``(x m, y m, heading rad)``.
+
+    Raises :class:`~floorfit.errors.InputError` naming ``what`` when the value is
+    not three finite numbers.
+    """
+    try:
+        x, y, h = (float(v) for v in value)
+    except (TypeError, ValueError):
+        raise InputError(
+            f"expected three numbers (x m, y m, heading rad), got {value!r}", where=what
+        ) from None
+    if not all(math.isfinite(v) for v in (x, y, h)):
+        raise InputError(f"pose values must be finite, got {value!r}", where=what)
+    return (x, y, h)
+
+
+def relative_pose(origin: Pose, target) -> np.ndarray:
+    """Express ``target`` poses ((3,) or (N, 3)) in the frame of ``origin``.
+
+    Returns an array of the same shape: (x m, y m, heading rad) with the heading
+    wrapped into [-pi, pi).
+    """
+    target = np.asarray(target, dtype=float)
+    ox, oy, oh = origin
+    dx = target[..., 0] - ox
+    dy = target[..., 1] - oy
+    c, s = math.cos(oh), math.sin(oh)
+    out = np.empty_like(target)
+    out[..., 0] = c * dx + s * dy
+    out[..., 1] = -s * dx + c * dy
+    out[..., 2] = wrap_angle(target[..., 2] - oh)
+    return out
+
+
+def pose_from_degrees(pose_deg):
+    """(x m, y m, heading deg) -> (x m, y m, heading rad); one pose or an (N, 3) array."""
+    arr = np.array(pose_deg, dtype=float)
+    arr[..., 2] = np.radians(arr[..., 2])
+    return tuple(float(v) for v in arr) if arr.ndim == 1 else arr
+
+
+def pose_to_degrees(pose_rad):
+    """(x m, y m, heading rad) -> (x m, y m, heading deg); one pose or an (N, 3) array."""
+    arr = np.array(pose_rad, dtype=float)
+    arr[..., 2] = np.degrees(arr[..., 2])
+    return tuple(float(v) for v in arr) if arr.ndim == 1 else arr
