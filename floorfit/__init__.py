@@ -24,6 +24,7 @@ _LAZY = {
     "Vehicle": "floorfit.vehicle",
     "load_vehicle": "floorfit.vehicle",
     "rectangle_vehicle": "floorfit.vehicle",
+    "vehicle_from_outline": "floorfit.vehicle",
     "SliceSet": "floorfit.cspace",
     "build_slices": "floorfit.cspace",
     "build_roadmap": "floorfit.roadmap",

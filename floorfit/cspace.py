@@ -109,9 +109,35 @@ def _worker_slice(args):
     return _slice_components(_WORKER["obstacles"], parts, heading, grow, _WORKER["domain"], anchor)
 
 
-def _shrunk_parts(footprint: Polygon, erode: float) -> tuple[list[Polygon], np.ndarray]:
-    shrunk = footprint.buffer(-erode, join_style="mitre") if erode > 0 else footprint
-    polys = [g for g in shapely.get_parts(shrunk) if isinstance(g, Polygon) and g.area > 0]
+#: Sub-samples per heading cell for the optimistic (inner) footprint.
+OPTIMISTIC_SUBSAMPLES = 8
+
+
+def _inner_footprint(footprint: Polygon, below_deg: float, above_deg: float, curve_tol: float) -> Polygon:
+    """A polygon contained in the footprint at every heading of the cell (vehicle frame at the slice heading).
+
+    The intersection of the footprint rotated to ``OPTIMISTIC_SUBSAMPLES + 1`` headings
+    spanning the cell, shrunk by the largest displacement between samples
+    (2ρ·sin(δ/4), δ the sample spacing) and by the curve tolerance. If the vehicle is
+    clear at some heading of the cell, this inner polygon is clear at the slice heading.
+    """
+    span = below_deg + above_deg
+    inner = footprint
+    if span > 0:
+        angles = np.linspace(-below_deg, above_deg, OPTIMISTIC_SUBSAMPLES + 1)
+        for a in angles:
+            inner = inner.intersection(shapely.affinity.rotate(footprint, float(a), origin=(0, 0)))
+        rho = float(np.max(np.hypot(*shapely.get_coordinates(footprint).T)))
+        erode = rotation_displacement_m(rho, span / OPTIMISTIC_SUBSAMPLES / 2.0) + curve_tol
+    else:
+        erode = curve_tol
+    if erode > 0:
+        inner = inner.buffer(-erode, join_style="mitre")
+    return inner
+
+
+def _inner_parts(inner: Polygon, footprint: Polygon) -> tuple[list[Polygon], np.ndarray]:
+    polys = [g for g in shapely.get_parts(inner) if isinstance(g, Polygon) and g.area > 0]
     if not polys:   # vehicle smaller than the tolerance: keep a tiny square at its centre
         c = footprint.representative_point()
         polys = [box(c.x - 1e-6, c.y - 1e-6, c.x + 1e-6, c.y + 1e-6)]
@@ -225,15 +251,17 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
         tolerance = float(shapely.hausdorff_distance(grown, fp)) if gmax > 0 else 0.0
     else:
         jobs = []
-        cache: dict[float, tuple] = {}
-        for h, g in zip(cells.headings, grow):
-            key = round(float(g), 12)
+        cache: dict[tuple, tuple] = {}
+        tolerance = 0.0
+        for h, lo, hi in zip(cells.headings, cells.below, cells.above):
+            key = (round(float(lo), 9), round(float(hi), 9))
             if key not in cache:
-                cache[key] = _shrunk_parts(fp, float(g))
+                inner = _inner_footprint(fp, float(lo), float(hi), plan.curve_tolerance_m)
+                cache[key] = _inner_parts(inner, fp)
+                tolerance = max(tolerance, float(shapely.hausdorff_distance(inner, fp)) if not inner.is_empty
+                                else vehicle.radius_m)
             parts, anchor = cache[key]
             jobs.append((parts, float(h), 0.0, anchor))
-        gmax = float(grow.max())
-        tolerance = float(shapely.hausdorff_distance(_shrunk_union(fp, gmax), fp)) if gmax > 0 else 0.0
 
     n_workers = os.cpu_count() or 1 if workers is None else max(1, int(workers))
     if n_workers > 1 and len(jobs) >= 8:
@@ -245,8 +273,3 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
     return SliceSet(plan=plan, vehicle=vehicle, cells=cells, components=comps,
                     grow_m=grow if bound == "sound" else -grow, bound=bound,
                     tolerance_m=tolerance, domain=domain)
-
-
-def _shrunk_union(fp: Polygon, erode: float):
-    parts, _ = _shrunk_parts(fp, erode)
-    return shapely.union_all(parts)

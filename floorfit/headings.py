@@ -17,7 +17,7 @@ import shapely
 
 __all__ = ["wrap_deg", "arc_deg", "interpolate_heading", "default_step_deg", "rotation_displacement_m",
            "dominant_directions_deg", "HeadingCells", "make_heading_cells", "STEP_CHOICES_DEG",
-           "TARGET_ROTATION_ERROR_M"]
+           "TARGET_ROTATION_ERROR_M", "GUARD_DEG"]
 
 #: Candidate uniform steps, degrees (each divides 360).
 STEP_CHOICES_DEG = (5.0, 4.0, 3.0, 2.5, 2.0, 1.5, 1.25, 1.0)
@@ -25,6 +25,10 @@ STEP_CHOICES_DEG = (5.0, 4.0, 3.0, 2.5, 2.0, 1.5, 1.25, 1.0)
 TARGET_ROTATION_ERROR_M = 0.01
 #: Two slice headings closer than this (degrees) are merged.
 MERGE_DEG = 1e-6
+#: Special headings (wall directions, start/goal, docking) get guard slices this far on
+#: each side, degrees, so that their own cell is narrow and nearly exact: a vehicle that
+#: fits a tight aisle only when aligned with it is not misjudged.
+GUARD_DEG = 0.1
 
 
 def wrap_deg(h):
@@ -126,8 +130,11 @@ class HeadingCells:
         return np.argmin(d, axis=1)
 
 
-def make_heading_cells(step_deg: float, extra_deg=(), *, only=None) -> HeadingCells:
+def make_heading_cells(step_deg: float, extra_deg=(), *, only=None, guard_deg: float = GUARD_DEG) -> HeadingCells:
     """Uniform headings every ``step_deg`` plus ``extra_deg`` (wall directions, start/goal).
+
+    Each extra heading h also gets guard headings h ± ``guard_deg``, so its cell spans only
+    ±``guard_deg``/2 and its slice is within ``2ρ·sin(guard_deg/4)`` of exact.
 
     With ``only`` (a list of headings) the set is exactly those headings; a single heading
     gives a cell of zero width (a vehicle that never rotates).
@@ -139,7 +146,10 @@ def make_heading_cells(step_deg: float, extra_deg=(), *, only=None) -> HeadingCe
             raise ValueError("heading step must be in (0, 90] degrees")
         n = int(round(360.0 / step_deg))
         base = -180.0 + np.arange(n) * (360.0 / n)
-        hs = np.concatenate([base, wrap_deg(np.asarray(list(extra_deg), dtype=float))])
+        extra = np.asarray(list(extra_deg), dtype=float)
+        if guard_deg > 0 and len(extra):
+            extra = np.concatenate([extra, extra - guard_deg, extra + guard_deg])
+        hs = np.concatenate([base, wrap_deg(extra)])
         hs = np.sort(np.round(hs, 9))
         keep = np.concatenate([[True], np.diff(hs) > MERGE_DEG])
         hs = hs[keep]

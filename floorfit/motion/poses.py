@@ -53,22 +53,19 @@ def as_pose(value: Sequence[float], what: str = "pose") -> Pose:
     return (x, y, h)
 
 
-def relative_pose(origin: Pose, target) -> np.ndarray:
-    """Express ``target`` poses ((3,) or (N, 3)) in the frame of ``origin``.
+def relative_pose(origin, target) -> np.ndarray:
+    """Express ``target`` poses in the frame of ``origin`` poses.
 
-    Returns an array of the same shape: (x m, y m, heading rad) with the heading
-    wrapped into [-pi, pi).
+    Both are (3,) or (N, 3) arrays of (x m, y m, heading rad) and broadcast against
+    each other. Returns (x m, y m, heading rad) with the heading wrapped into [-pi, pi).
     """
+    origin = np.asarray(origin, dtype=float)
     target = np.asarray(target, dtype=float)
-    ox, oy, oh = origin
-    dx = target[..., 0] - ox
-    dy = target[..., 1] - oy
-    c, s = math.cos(oh), math.sin(oh)
-    out = np.empty_like(target)
-    out[..., 0] = c * dx + s * dy
-    out[..., 1] = -s * dx + c * dy
-    out[..., 2] = wrap_angle(target[..., 2] - oh)
-    return out
+    dx = target[..., 0] - origin[..., 0]
+    dy = target[..., 1] - origin[..., 1]
+    c, s = np.cos(origin[..., 2]), np.sin(origin[..., 2])
+    return np.stack([c * dx + s * dy, -s * dx + c * dy,
+                     wrap_angle(target[..., 2] - origin[..., 2])], axis=-1)
 
 
 def pose_from_degrees(pose_deg):

@@ -1,0 +1,70 @@
+"""Turning words (letters L, R, S with signed lengths) turned into segments.
+
+Shared by the Reeds-Shepp and Dubins modules. In a word, ``L`` turns with the
+centre on the vehicle's left, ``R`` on its right, ``S`` goes straight; each length
+is in units of the turning radius (radians for arcs) and negative means reverse.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from floorfit.errors import InputError
+from floorfit.motion.poses import Pose, as_pose, relative_pose
+from floorfit.motion.segments import Segment, arc, straight
+
+# Pieces shorter than this (in turning radii) are dropped from a word's segments.
+_EMPTY = 1e-10
+
+
+@dataclass(frozen=True)
+class Word:
+    """A candidate path: letters, signed lengths (in turning radii) and total length (m)."""
+
+    letters: str
+    lengths: tuple[float, ...]
+    length_m: float
+
+
+def check_radius(radius) -> float:
+    try:
+        r = float(radius)
+    except (TypeError, ValueError):
+        raise InputError(f"turning radius must be a number of metres, got {radius!r}",
+                         where="radius") from None
+    if not (r > 0 and np.isfinite(r)):
+        raise InputError(f"turning radius must be positive and finite, got {radius!r}",
+                         where="radius")
+    return r
+
+
+def normalised_goal(start, goal, radius: float) -> np.ndarray:
+    """Goal poses ((3,) or (N, 3)) in the start frame, positions divided by ``radius``."""
+    start_arr = np.asarray(start, dtype=float)
+    goal_arr = np.asarray(goal, dtype=float)
+    if start_arr.shape[-1:] != (3,) or goal_arr.shape[-1:] != (3,):
+        raise InputError("poses must have three values (x m, y m, heading rad)",
+                         where="start/goal")
+    if not (np.all(np.isfinite(start_arr)) and np.all(np.isfinite(goal_arr))):
+        raise InputError("pose values must be finite", where="start/goal")
+    rel = relative_pose(start_arr, goal_arr)
+    rel[..., :2] /= radius
+    return rel
+
+
+def word_segments(start: Pose, word: Word, radius: float) -> list[Segment]:
+    """Segments of ``word`` driven from ``start`` with turning radius ``radius`` (m)."""
+    pose = as_pose(start, "start")
+    out: list[Segment] = []
+    for letter, length in zip(word.letters, word.lengths):
+        if abs(length) < _EMPTY:
+            continue
+        if letter == "S":
+            seg = straight(pose, length * radius)
+        else:
+            seg = arc(pose, length * radius, 1 if letter == "L" else -1, radius)
+        out.append(seg)
+        pose = seg.end
+    return out

@@ -1,0 +1,231 @@
+"""The output folder of a site check, written so that a reader can trust what it finds.
+
+Rule (also in docs/report.md): **a folder holds a complete report exactly when it holds
+findings.json.** To keep that true:
+
+1. Everything is rendered in memory first; a failure there writes nothing.
+2. Then the old findings.json in the folder is deleted before anything else changes, and
+   the other files of earlier floorfit runs after it, so files of two runs never mix.
+3. Each file goes to a temporary file in the same folder (name starting
+   ``.floorfit-partial-``), is flushed to disk, and is moved into place with
+   :func:`os.replace` (atomic on one file system): no file is ever seen half-written.
+4. findings.json is moved into place last. If anything fails before that, the files
+   this run had already moved into place and all temporary files are removed, and the
+   error is raised (an operating-system error as :class:`~floorfit.errors.InputError`).
+
+findings.json is always written (it is the completion marker); ``formats`` chooses the
+others. A folder that holds files floorfit did not write is refused unless
+``force=True``; even then those other files are left alone (floorfit's own file names
+are overwritten). The input drawing is never opened, and an output path that is the
+input drawing is refused.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import secrets
+from pathlib import Path
+from typing import Any, Iterable
+
+from ..errors import InputError
+from .progress import Progress
+from .tables import CSV_COLUMNS, REPORT_FORMAT
+
+__all__ = ["OUTPUT_FILES", "COMPLETION_MARKER", "write_report", "floorfit_wrote"]
+
+#: Format name → file name in the output folder.
+OUTPUT_FILES: dict[str, str] = {
+    "html": "report.html",
+    "json": "findings.json",
+    "csv": "findings.csv",
+    "dxf": "overlay.dxf",
+}
+#: The file whose presence means "this folder holds a complete report".
+COMPLETION_MARKER = OUTPUT_FILES["json"]
+
+_TMP_PREFIX = ".floorfit-partial-"
+_HTML_SIGNATURE = b'<meta name="generator" content="floorfit'
+_DXF_SIGNATURE = b"floorfit_overlay"
+_SNIFF_BYTES = 256 * 1024
+
+
+def _head(path: Path, size: int = _SNIFF_BYTES) -> bytes:
+    try:
+        with open(path, "rb") as fh:
+            return fh.read(size)
+    except OSError:
+        return b""
+
+
+def floorfit_wrote(path: str | os.PathLike) -> bool:
+    """True when ``path`` is an output file floorfit wrote (judged by its name and content)
+    or a temporary file left by an interrupted floorfit run."""
+    path = Path(path)
+    name = path.name
+    if name.startswith(_TMP_PREFIX):
+        return path.is_file()
+    if not path.is_file():
+        return False
+    if name == OUTPUT_FILES["html"]:
+        return _HTML_SIGNATURE in _head(path, 4096)
+    if name == OUTPUT_FILES["json"]:
+        try:
+            with open(path, encoding="utf-8") as fh:
+                return json.load(fh).get("format") == REPORT_FORMAT
+        except (OSError, ValueError, AttributeError):
+            return False
+    if name == OUTPUT_FILES["csv"]:
+        first = _head(path, 4096).decode("utf-8-sig", errors="replace").splitlines()[:1]
+        return first == [",".join(CSV_COLUMNS)]
+    if name == OUTPUT_FILES["dxf"]:
+        return _DXF_SIGNATURE in _head(path)
+    return False
+
+
+def _check_formats(formats: Iterable[str], out_dir: Path) -> list[str]:
+    chosen = []
+    for fmt in formats:
+        if fmt not in OUTPUT_FILES:
+            raise InputError(f"unknown report format {fmt!r}; choose from "
+                             f"{', '.join(OUTPUT_FILES)}", str(out_dir), "formats")
+        if fmt not in chosen:
+            chosen.append(fmt)
+    if "json" not in chosen:
+        chosen.append("json")                 # the completion marker is always written
+    return [f for f in OUTPUT_FILES if f in chosen]
+
+
+def _check_folder(out_dir: Path, force: bool) -> list[Path]:
+    """floorfit's own files already in ``out_dir`` (to be replaced); refuse foreign ones."""
+    if out_dir.exists() and not out_dir.is_dir():
+        raise InputError("the output path exists and is not a folder", str(out_dir))
+    if not out_dir.exists():
+        return []
+    ours, foreign = [], []
+    for entry in sorted(out_dir.iterdir()):
+        (ours if floorfit_wrote(entry) else foreign).append(entry)
+    if foreign and not force:
+        names = ", ".join(p.name for p in foreign[:3]) + (" ..." if len(foreign) > 3 else "")
+        raise InputError(f"the output folder holds files floorfit did not write ({names}); "
+                         "choose another folder or force overwriting", str(out_dir))
+    return ours
+
+
+def _check_not_input(targets: Iterable[Path], source: Any, out_dir: Path) -> None:
+    src = Path(str(source))
+    if not src.exists():
+        return
+    for target in targets:
+        if target.exists() and os.path.samefile(target, src):
+            raise InputError("an output file would overwrite the input drawing",
+                             str(out_dir), target.name)
+
+
+def _write_temp(folder: Path, name: str, data: bytes) -> Path:
+    """``data`` in a new temporary file in ``folder``, flushed to disk (permissions per umask)."""
+    tmp = folder / f"{_TMP_PREFIX}{name}.{secrets.token_hex(6)}"
+    fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+    return tmp
+
+
+def _sync_folder(folder: Path) -> None:
+    try:
+        fd = os.open(folder, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
+
+
+def _render(result: Any, chosen: list[str], progress: Progress) -> dict[str, bytes]:
+    # Imported here so that `import floorfit.report` stays light.
+    from .figures import draw_report_figures
+    from .html import render_html
+    from .overlay import overlay_dxf
+    from .tables import findings_csv, findings_json
+
+    contents: dict[str, bytes] = {}
+    if "html" in chosen:
+        progress.stage("drawing figures")
+        images = draw_report_figures(result)
+        progress.stage("composing report.html")
+        contents["html"] = render_html(result, images).encode("utf-8")
+    if "csv" in chosen:
+        progress.stage("tabulating findings.csv")
+        contents["csv"] = findings_csv(result)
+    if "dxf" in chosen:
+        progress.stage("drawing overlay.dxf")
+        contents["dxf"] = overlay_dxf(result)
+    progress.stage("writing findings.json")
+    contents["json"] = findings_json(result, [OUTPUT_FILES[f] for f in chosen])
+    return contents
+
+
+def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False,
+                 formats: Iterable[str] = ("html", "json", "csv", "dxf"),
+                 quiet: bool = False) -> dict[str, Path]:
+    """Write the report files of ``result`` (a :class:`~floorfit.findings.CheckResult`)
+    into ``out_dir`` and return ``{format: path}`` of the files written.
+
+    Parameters
+    ----------
+    result : CheckResult
+        A finished site check (see docs/report.md for the attributes used).
+    out_dir : path
+        The output folder; created if missing. A folder holding files floorfit did not
+        write raises :class:`~floorfit.errors.InputError` unless ``force``.
+    force : bool
+        Write into a folder that holds other files (they are left alone).
+    formats : iterable of str
+        Any of ``"html"``, ``"json"``, ``"csv"``, ``"dxf"``; ``"json"`` is always added.
+    quiet : bool
+        No progress output on standard error.
+    """
+    out_dir = Path(out_dir)
+    chosen = _check_formats(formats, out_dir)
+    old_ours = _check_folder(out_dir, force)
+    targets = {fmt: out_dir / OUTPUT_FILES[fmt] for fmt in chosen}
+    _check_not_input(targets.values(), result.plan.source, out_dir)
+
+    progress = Progress(total_stages=len(chosen) + (1 if "html" in chosen else 0) + 1, quiet=quiet)
+    contents = _render(result, chosen, progress)
+
+    progress.stage(f"saving to {out_dir}")
+    temps: dict[str, Path] = {}
+    placed: list[Path] = []
+    order = [f for f in chosen if f != "json"] + ["json"]
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+        (out_dir / COMPLETION_MARKER).unlink(missing_ok=True)   # folder now marked incomplete
+        for path in old_ours:                                   # earlier runs' files go
+            path.unlink(missing_ok=True)
+        for fmt in order:
+            temps[fmt] = _write_temp(out_dir, OUTPUT_FILES[fmt], contents[fmt])
+        for fmt in order:
+            os.replace(temps.pop(fmt), targets[fmt])
+            placed.append(targets[fmt])
+    except BaseException as exc:
+        for tmp in temps.values():
+            tmp.unlink(missing_ok=True)
+        for path in placed:
+            path.unlink(missing_ok=True)
+        if isinstance(exc, OSError):
+            reason = exc.strerror or str(exc)
+            raise InputError(f"cannot write the report: {reason}", str(out_dir)) from exc
+        raise
+    _sync_folder(out_dir)
+    progress.done(f"report written to {out_dir}")
+    return dict(targets)
