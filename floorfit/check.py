@@ -1,0 +1,458 @@
+"""The site check: reachability between stations, pinch points, no-turn stretches, tight spots.
+
+``run_check(plan, vehicle, stations, site=...)`` returns a :class:`~floorfit.findings.CheckResult`.
+
+How each finding kind is found
+------------------------------
+``blocked``
+    The vehicle's roadmap splits into separate regions (connected components). A raster of
+    floor clearance is swept from wide to narrow, joining regions where the widest
+    connecting path allows (a maximin path problem); every join that still leaves at least
+    a person's width (``person_width``) is a place where a person passes and the vehicle
+    does not. Its clear width is measured exactly at the narrowest point nearby. If the
+    clear width is at least what the vehicle needs to drive straight through, the cause is
+    the turn (a corner or approach it cannot make).
+``tight``
+    The same analysis for the vehicle outline grown by the site's required clearance, kept
+    where the plain vehicle (with its margin) does pass.
+``no-turn``
+    Floor where the vehicle fits but lies farther than a short move from any place where it
+    can turn around (see :mod:`floorfit.turnability`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from typing import Callable
+
+import networkx as nx
+import numpy as np
+import shapely
+from scipy import ndimage
+from shapely.geometry import Point, box
+
+from .clearance_field import choose_cell_size, clearance_field, join_events
+from .cspace import SliceSet, build_slices, choose_headings, obstacles_for
+from .errors import SiteError
+from .findings import CheckResult, Finding, Station
+from .headings import arc_deg
+from .naming import place_name
+from .passages import ObstacleIndex, min_width, narrowest_width_near
+from .plan import Plan
+from .raster import fill_polygons
+from .roadmap import build_roadmap
+from .site import Site
+from .turnability import heading_ranges, heading_raster, turn_region, turning_circle
+from .vehicle import Vehicle
+
+__all__ = ["run_check", "station_nodes", "MAP_MAX_CELLS"]
+
+#: The turnability map is sampled on at most this many cells (its cell size grows on big sites).
+MAP_MAX_CELLS = 400_000
+
+
+def _noop(_msg: str) -> None:
+    pass
+
+
+def station_nodes(slices: SliceSet, st_local: tuple[float, float], heading: float | None, tol: float) -> list:
+    """Roadmap nodes (slice, component) holding a station point at an allowed heading."""
+    pt = Point(st_local)
+    if heading is None:
+        ks = range(len(slices))
+    else:
+        d = np.abs(arc_deg(slices.cells.headings, heading))
+        ks = list(np.flatnonzero(d <= tol + 1e-9)) or [int(np.argmin(d))]
+    nodes = []
+    for k in ks:
+        hits = slices.tree(int(k)).query(pt, predicate="intersects")
+        nodes.extend((int(k), int(i)) for i in hits)
+    return nodes
+
+
+def _validate_stations(plan: Plan, stations: list[Station], source: str | None) -> None:
+    names = set()
+    x0, y0, x1, y1 = plan.extent_m
+    pad = max(x1 - x0, y1 - y0) * 0.5 + 5.0
+    solids = plan.solids
+    tree = shapely.STRtree(solids) if len(solids) else None
+    for s in stations:
+        where = f"stations.{s.name}"
+        if s.name in names:
+            raise SiteError(f"station '{s.name}' is given twice", source, where)
+        names.add(s.name)
+        if not all(math.isfinite(v) for v in (s.x, s.y)):
+            raise SiteError("station coordinates must be finite numbers", source, where)
+        if not (x0 - pad <= s.x <= x1 + pad and y0 - pad <= s.y <= y1 + pad):
+            raise SiteError(f"station at ({s.x:g}, {s.y:g}) m lies far outside the drawing "
+                            f"(extent {x0:.1f}..{x1:.1f} × {y0:.1f}..{y1:.1f} m); stations are in metres "
+                            f"in the drawing frame", source, where)
+        if tree is not None:
+            lx, ly = plan.to_local(s.x, s.y)
+            hit = tree.query(Point(lx, ly), predicate="within")
+            if len(hit):
+                raise SiteError(f"station at ({s.x:g}, {s.y:g}) m lies inside an obstacle", source, where)
+
+
+class _Analysis:
+    """Shared state of one check (local frame throughout)."""
+
+    def __init__(self, plan, vehicle, stations, site, progress, workers, heading_step):
+        self.plan = plan
+        self.vehicle = vehicle
+        self.stations = stations
+        self.site = site
+        self.progress = progress
+        self.workers = workers
+        self.heading_step = heading_step
+        self.index = ObstacleIndex(plan.walls, plan.solids)
+        self.st_local = {s.name: plan.to_local(s.x, s.y) for s in stations}
+
+    # --- roadmap regions ----------------------------------------------------------
+    def regions(self, slices: SliceSet, G: nx.Graph):
+        comp_of = {}
+        comps = list(nx.connected_components(G))
+        for cid, c in enumerate(comps):
+            for n in c:
+                comp_of[n] = cid
+        st_regions = {}
+        for s in self.stations:
+            nodes = station_nodes(slices, self.st_local[s.name], s.heading_deg, s.heading_tolerance_deg)
+            st_regions[s.name] = sorted({comp_of[n] for n in nodes})
+        return comps, comp_of, st_regions
+
+    def seeds(self, slices: SliceSet, comps, st_regions, field, min_area):
+        seeds = {}
+        keep = set(r for rs in st_regions.values() for r in rs)
+        for cid, c in enumerate(comps):
+            big = max(slices.components[k][i].area for k, i in c) >= min_area
+            if cid in keep or big:
+                pts = []
+                for k, i in c:
+                    poly = slices.components[k][i]
+                    p = poly.representative_point()
+                    pts.append((p.x, p.y))
+                for name, rs in st_regions.items():
+                    if cid in rs:
+                        pts.append(self.st_local[name])
+                pts = np.asarray(pts)
+                iy, ix = field.index_of(pts[:, 0], pts[:, 1])
+                seeds[cid] = np.unique(np.c_[iy, ix], axis=0)
+        return seeds
+
+    def joins(self, slices, G, field, floor):
+        comps, comp_of, st_regions = self.regions(slices, G)
+        min_area = 2.0 * self.vehicle.footprint.area
+        seeds = self.seeds(slices, comps, st_regions, field, min_area)
+        events = join_events(field, seeds, floor)
+        return comps, comp_of, st_regions, seeds, events
+
+    def locate(self, slices, comps, seeds, field, ev, union_sides):
+        """Local (x, y) of a join; for regions that overlap in the plane, a point of the overlap."""
+        x, y = field.centre_of(ev.iy, ev.ix)
+        a_side, b_side = union_sides
+        if a_side is not None and b_side is not None:
+            inter = a_side.intersection(b_side)
+            if not inter.is_empty and inter.area > 0:
+                p = inter.representative_point()
+                return p.x, p.y, True
+        return x, y, False
+
+    def side_geometry(self, slices, comps, members, limit=240):
+        polys = [slices.components[k][i] for cid in members for k, i in comps[cid]]
+        if len(polys) > limit:
+            step = len(polys) / limit
+            polys = [polys[int(j * step)] for j in range(limit)]
+        return shapely.union_all(polys) if polys else None
+
+
+def _cells_to_geometry(mask: np.ndarray, x0: float, y0: float, cell: float):
+    """Union of the boxes of True cells (row runs merged), local frame."""
+    boxes = []
+    for iy in np.flatnonzero(mask.any(axis=1)):
+        row = mask[iy]
+        d = np.diff(np.concatenate([[0], row.astype(np.int8), [0]]))
+        starts, ends = np.flatnonzero(d == 1), np.flatnonzero(d == -1)
+        for a, b in zip(starts, ends):
+            boxes.append(box(x0 + a * cell, y0 + iy * cell, x0 + b * cell, y0 + (iy + 1) * cell))
+    return shapely.union_all(boxes) if boxes else shapely.Polygon()
+
+
+def _sides_of_events(events, regions):
+    """For each event, the member regions of each side at the time of the join."""
+    parent = {r: r for r in regions}
+    members = {r: {r} for r in regions}
+
+    def find(r):
+        while parent[r] != r:
+            parent[r] = parent[parent[r]]
+            r = parent[r]
+        return r
+
+    out = []
+    for ev in events:
+        ra, rb = find(ev.a), find(ev.b)
+        out.append((set(members[ra]), set(members[rb])))
+        parent[rb] = ra
+        members[ra] |= members.pop(rb)
+    return out
+
+
+def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Site | None = None,
+              heading_step_deg: float | None = None, workers: int | None = 1,
+              progress: Callable[[str], None] | None = None) -> CheckResult:
+    """Check a site for a vehicle. Stations in the drawing frame (metres, degrees)."""
+    site = site or Site()
+    progress = progress or _noop
+    _validate_stations(plan, stations, site.path)
+    step = heading_step_deg or site.heading_step_deg
+    A = _Analysis(plan, vehicle, stations, site, progress, workers, step)
+    extra = [s.heading_deg for s in stations if s.heading_deg is not None]
+    cells = choose_headings(plan, vehicle, heading_step_deg=step, extra_headings=extra)
+    obstacles = obstacles_for(plan, vehicle)
+    progress(f"slices: {len(cells)} headings")
+    slices = build_slices(plan, vehicle, cells=cells, workers=workers, obstacles=obstacles)
+    progress("roadmap")
+    G = build_roadmap(slices)
+
+    x0, y0, x1, y1 = plan.local_bounds()
+    pad = 1.0
+    bounds = (x0 - pad, y0 - pad, x1 + pad, y1 + pad)
+    cell = choose_cell_size(bounds, 0.05)
+    progress(f"clearance field ({cell * 100:.0f} cm cells)")
+    field = clearance_field(plan.walls, plan.solids, bounds, cell)
+    person = site.person_width_m
+    floor = max(person / 2.0 - 0.75 * cell, cell)
+
+    findings: list[Finding] = []
+    needed = min_width(vehicle.footprint)
+    comps, comp_of, st_regions, seeds, events = A.joins(slices, G, field, floor)
+    names = [s.name for s in stations]
+    reach = {a: {b: bool(set(st_regions[a]) & set(st_regions[b])) for b in names} for a in names}
+    notes: list[str] = []
+
+    # stations where the vehicle does not fit at all
+    for s in stations:
+        if not st_regions[s.name]:
+            lx, ly = A.st_local[s.name]
+            hd = f" at heading {s.heading_deg:g}° (±{s.heading_tolerance_deg:g}°)" if s.heading_deg is not None else ""
+            findings.append(Finding(
+                kind="blocked", cause="station", x=s.x, y=s.y, label=place_name(plan, lx, ly),
+                summary=f"the vehicle does not fit at station {s.name}{hd}",
+                cuts_off=[s.name], needed_width_m=round(needed, 4)))
+            notes.append(f"station {s.name}: the vehicle does not fit there{hd}")
+
+    progress("pinch points")
+    tree = nx.Graph()
+    tree.add_nodes_from(seeds)
+    sides = _sides_of_events(events, list(seeds))
+    region_stations = {cid: [n for n in names if cid in st_regions[n]] for cid in seeds}
+    for ev, (sa, sb) in zip(events, sides):
+        ga = A.side_geometry(slices, comps, sa)
+        gb = A.side_geometry(slices, comps, sb)
+        lx, ly, overlap = A.locate(slices, comps, seeds, field, ev, (ga, gb))
+        w, px, py, q1, q2 = narrowest_width_near(A.index, lx, ly, radius=max(3 * cell, 0.15))
+        if not overlap and w < person - 1e-6:
+            continue      # not a passage a person uses: the regions are not walkably connected here
+        if overlap:
+            px, py = lx, ly
+            w, q1, q2 = A.index.width_at(px, py)
+        st_a = sorted({n for r in sa for n in region_stations.get(r, [])})
+        st_b = sorted({n for r in sb for n in region_stations.get(r, [])})
+        cut = st_b if len(st_b) <= len(st_a) else st_a
+        cause = "width" if w < needed + slices.tolerance_m else "turn"
+        dx, dy = plan.to_drawing(px, py)
+        label = place_name(plan, px, py)
+        if cause == "width":
+            summary = (f"clear width {w:.2f} m, the vehicle needs {needed:.2f} m (outline plus margin) to pass")
+        else:
+            summary = (f"clear width {w:.2f} m is enough to drive straight through ({needed:.2f} m), "
+                       f"but the vehicle cannot make the turn here")
+        if cut:
+            summary += f"; cuts off {', '.join(cut)}"
+        geom = shapely.LineString([q1, q2]) if q1 is not None and q2 is not None and not np.allclose(q1, q2) else None
+        f = Finding(kind="blocked", cause=cause, x=dx, y=dy, label=label, summary=summary,
+                    clear_width_m=round(w, 4), needed_width_m=round(needed, 4), cuts_off=cut, geometry=geom)
+        findings.append(f)
+        tree.add_edge(ev.a, ev.b, finding=f)
+
+    # where each unreachable pair is cut
+    cuts: dict[tuple[str, str], list[Finding]] = {}
+    for i, a in enumerate(names):
+        for b in names[i + 1:]:
+            if reach[a][b]:
+                continue
+            found = []
+            for ra in st_regions[a]:
+                for rb in st_regions[b]:
+                    if ra in tree and rb in tree and nx.has_path(tree, ra, rb):
+                        path = nx.shortest_path(tree, ra, rb)
+                        found = [tree.edges[u, v]["finding"] for u, v in zip(path[:-1], path[1:])]
+                        break
+                if found:
+                    break
+            cuts[(a, b)] = found
+            if not found and st_regions[a] and st_regions[b]:
+                notes.append(f"{a} and {b} are not connected even for a person "
+                             f"({person:.2f} m wide): separate parts of the drawing")
+
+    # tight: the vehicle outline grown by the required clearance
+    req = site.required_clearance_m
+    if req > vehicle.margin_m + 1e-9 and stations:
+        progress(f"clearance {req:.2f} m")
+        grown = replace(vehicle, outline=vehicle.outline.buffer(req, join_style="mitre", mitre_limit=10.0),
+                        margin_m=0.0, name=vehicle.name + " + clearance")
+        gslices = build_slices(plan, grown, cells=choose_headings(plan, grown, heading_step_deg=step,
+                                                                    extra_headings=extra),
+                               workers=workers, obstacles=obstacles)
+        gG = build_roadmap(gslices)
+        gcomps, _, g_st, gseeds, gevents = A.joins(gslices, gG, field, floor)
+        gsides = _sides_of_events(gevents, list(gseeds))
+        blocked_xy = [(f.x, f.y) for f in findings if f.kind == "blocked"]
+        outline_w = min_width(vehicle.outline)
+        for s in stations:
+            if st_regions[s.name] and not g_st.get(s.name):
+                lx, ly = A.st_local[s.name]
+                w, px, py, q1, q2 = narrowest_width_near(A.index, lx, ly, radius=0.3)
+                clearance = max(0.0, (w - outline_w) / 2.0)
+                findings.append(Finding(
+                    kind="tight", cause="station", x=s.x, y=s.y, label=place_name(plan, lx, ly),
+                    summary=(f"station {s.name} is served, but with about {clearance:.2f} m clearance each side "
+                             f"where the site asks {req:.2f} m ({site.clearance_reference}); clear width {w:.2f} m"),
+                    clear_width_m=round(w, 4), needed_width_m=round(outline_w + 2 * req, 4),
+                    clearance_m=round(clearance, 4), required_clearance_m=req, cuts_off=[s.name]))
+        for ev, (sa, sb) in zip(gevents, gsides):
+            # keep only joins the plain vehicle makes: both sides in one plain region
+            pa = _plain_regions(slices, comp_of, gslices, gcomps, sa)
+            pb = _plain_regions(slices, comp_of, gslices, gcomps, sb)
+            if not (pa & pb):
+                continue
+            ga = A.side_geometry(gslices, gcomps, sa)
+            gb = A.side_geometry(gslices, gcomps, sb)
+            lx, ly, overlap = A.locate(gslices, gcomps, gseeds, field, ev, (ga, gb))
+            w, px, py, q1, q2 = narrowest_width_near(A.index, lx, ly, radius=max(3 * cell, 0.15))
+            if overlap:
+                px, py = lx, ly
+                w, q1, q2 = A.index.width_at(px, py)
+            dx, dy = plan.to_drawing(px, py)
+            if any(math.hypot(dx - bx, dy - by) < 1.0 for bx, by in blocked_xy):
+                continue
+            clearance = max(0.0, (w - outline_w) / 2.0)
+            g_names = {n for n in names for r in (sa | sb) if r in g_st.get(n, [])}
+            summary = (f"passable, but with {clearance:.2f} m clearance each side where the site asks "
+                       f"{req:.2f} m ({site.clearance_reference}); clear width {w:.2f} m")
+            findings.append(Finding(kind="tight", cause="width" if not overlap else "turn", x=dx, y=dy,
+                                    label=place_name(plan, px, py), summary=summary, clear_width_m=round(w, 4),
+                                    needed_width_m=round(outline_w + 2 * req, 4), clearance_m=round(clearance, 4),
+                                    required_clearance_m=req, cuts_off=sorted(g_names) if False else [],
+                                    geometry=shapely.LineString([q1, q2]) if q1 is not None and not np.allclose(q1, q2)
+                                    else None))
+
+    # turnability map and no-turn stretches
+    progress("turnability map")
+    map_cell = choose_cell_size(bounds, 0.1, MAP_MAX_CELLS)
+    raster = heading_raster(slices, bounds, map_cell)
+    counts = raster.counts
+    turnability = {"heading_count": {"x0": raster.x0, "y0": raster.y0, "cell_m": map_cell,
+                                     "counts": counts, "n_headings": len(slices)}}
+    fits = counts > 0
+    turnability["rotates"] = _cells_to_geometry(counts == len(slices), raster.x0, raster.y0, map_cell) \
+        if len(slices) > 1 else shapely.Polygon()
+    if vehicle.mode in ("omni", "differential") and len(slices) > 1:
+        centre, rho_min = turning_circle(vehicle.footprint)
+        troom = turn_region(obstacles, slices.domain, rho_min + plan.curve_tolerance_m)
+        turnability["turns_around"] = troom
+        tmask = fill_polygons(shapely.get_parts(troom), raster.x0, raster.y0, map_cell, *counts.shape[::-1])
+        reach_d = float(np.hypot(*centre)) + 0.5 * vehicle.length_m + map_cell
+        far = ndimage.distance_transform_edt(~tmask) * map_cell > reach_d if tmask.any() else np.ones_like(tmask)
+        noturn = fits & far
+        lab, n = ndimage.label(noturn, structure=np.ones((3, 3), bool))
+        min_cells = max(4, int(vehicle.footprint.area / map_cell ** 2))
+        for L in range(1, n + 1):
+            m = lab == L
+            if m.sum() < min_cells:
+                continue
+            f = _noturn_finding(plan, vehicle, slices, raster, m, fits, stations, A.st_local)
+            if f is not None:
+                findings.append(f)
+    else:
+        notes.append(f"no-turn analysis is not done for motion mode '{vehicle.mode}'")
+
+    findings = _rank(findings)
+    cuts_ids = {k: [f.id for f in v] for k, v in cuts.items()}
+    settings = slices.settings()
+    settings.update({
+        "vehicle_mode": vehicle.mode, "person_width_m": person, "required_clearance_m": req,
+        "clearance_reference": site.clearance_reference, "raster_cell_m": round(cell, 4),
+        "map_cell_m": round(map_cell, 4), "needed_width_m": round(needed, 4),
+        "location_tolerance_m": round(3 * cell, 4),
+    })
+    return CheckResult(plan=plan, vehicle=vehicle, settings=settings, stations=list(stations), reachable=reach,
+                       findings=findings, cuts=cuts_ids, turnability=turnability, notes=notes)
+
+
+def _plain_regions(slices, comp_of, gslices, gcomps, members) -> set:
+    """Plain-vehicle regions that hold the representative points of the grown vehicle's regions."""
+    out = set()
+    for cid in members:
+        for k, i in list(gcomps[cid])[:20]:
+            p = gslices.components[k][i].representative_point()
+            kk = slices.cells.index_of(float(gslices.cells.headings[k]))
+            for j in slices.tree(kk).query(p, predicate="intersects"):
+                out.add(comp_of.get((kk, int(j))))
+    out.discard(None)
+    return out
+
+
+def _noturn_finding(plan, vehicle, slices, raster, mask, fits, stations, st_local):
+    ys, xs = np.nonzero(mask)
+    cx, cy = raster.centres()
+    px, py = cx[xs], cy[ys]
+    # the cell nearest the centroid, inside the stretch
+    mx, my = px.mean(), py.mean()
+    j = int(np.argmin(np.hypot(px - mx, py - my)))
+    lx, ly = float(px[j]), float(py[j])
+    free = raster.free[:, ys, xs].any(axis=1)
+    ranges = heading_ranges(free, slices.cells.headings, slices.cells.below, slices.cells.above)
+    # mouths: where the stretch meets floor from which the vehicle can turn
+    ring = ndimage.binary_dilation(mask, np.ones((3, 3), bool), iterations=2) & fits & ~mask
+    _, mouths = ndimage.label(ring, structure=np.ones((3, 3), bool))
+    x0, x1 = px.min() - raster.cell / 2, px.max() + raster.cell / 2
+    y0, y1 = py.min() - raster.cell / 2, py.max() + raster.cell / 2
+    length = max(x1 - x0, y1 - y0)
+    if length < vehicle.length_m:
+        return None
+    inside = []
+    for s in stations:
+        sx, sy = st_local[s.name]
+        iy, ix = raster.index_of(sx, sy)
+        if mask[iy, ix]:
+            inside.append(s.name)
+    dead = mouths <= 1
+    rng = ", ".join(f"{a:g}° to {b:g}°" for a, b in ranges)
+    what = "dead end: the vehicle must back out the way it came" if dead else \
+        "the vehicle can pass through but cannot reverse its heading inside"
+    summary = f"{length:.1f} m stretch where the vehicle cannot turn around ({what}); it fits only at headings {rng}"
+    if inside:
+        summary += f"; {', '.join(inside)} lie{'s' if len(inside) == 1 else ''} in it"
+    dx0, dy0 = plan.to_drawing(x0, y0)
+    dx1, dy1 = plan.to_drawing(x1, y1)
+    dx, dy = plan.to_drawing(lx, ly)
+    geom = _cells_to_geometry(mask, raster.x0, raster.y0, raster.cell)
+    return Finding(kind="no-turn", cause="dead-end" if dead else "through", x=dx, y=dy,
+                   label=place_name(plan, lx, ly), summary=summary, heading_ranges_deg=ranges,
+                   extent=(dx0, dy0, dx1, dy1), cuts_off=[], geometry=geom,
+                   clear_width_m=None, needed_width_m=None)
+
+
+def _rank(findings: list[Finding]) -> list[Finding]:
+    order = {"blocked": 0, "no-turn": 1, "tight": 2, "maneuver": 3}
+
+    def key(f: Finding):
+        return (0 if f.cuts_off else 1, -len(f.cuts_off), order.get(f.kind, 9), round(f.x, 3), round(f.y, 3))
+
+    ranked = sorted(findings, key=key)
+    for i, f in enumerate(ranked, 1):
+        f.id = f"F{i}"
+    return ranked

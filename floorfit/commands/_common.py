@@ -1,0 +1,64 @@
+"""Argument helpers shared by the sub-commands (not a command itself)."""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+from ..errors import InputError
+
+__all__ = ["parse_pose", "parse_floats", "write_json_atomic", "add_plan_arguments", "load_plan_from_args"]
+
+
+def parse_floats(text: str, n: int | tuple[int, ...], what: str) -> tuple[float, ...]:
+    """Comma-separated finite numbers, e.g. ``"1.5,2,90"``."""
+    counts = (n,) if isinstance(n, int) else n
+    parts = [p.strip() for p in str(text).split(",")]
+    if len(parts) not in counts:
+        raise InputError(f"{what} must be {' or '.join(str(c) for c in counts)} comma-separated numbers, "
+                         f"got '{text}'", None, what)
+    try:
+        vals = tuple(float(p) for p in parts)
+    except ValueError:
+        raise InputError(f"{what} must be numbers, got '{text}'", None, what) from None
+    if not all(math.isfinite(v) for v in vals):
+        raise InputError(f"{what} has a non-finite value '{text}'", None, what)
+    return vals
+
+
+def parse_pose(text: str, what: str) -> tuple[float, float, float]:
+    """``X,Y,HEADING``: metres in the drawing frame and degrees CCW from +x."""
+    return parse_floats(text, 3, what)  # type: ignore[return-value]
+
+
+def write_json_atomic(path: str | Path, data) -> None:
+    """Write JSON to a temporary file beside ``path`` and rename it into place."""
+    p = Path(path)
+    if p.parent and not p.parent.exists():
+        raise InputError(f"folder does not exist: {p.parent}", str(p))
+    text = json.dumps(data, indent=2, sort_keys=True, ensure_ascii=False, allow_nan=False) + "\n"
+    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".part", dir=str(p.parent or "."))
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        os.replace(tmp, p)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def add_plan_arguments(p) -> None:
+    """The plan-reading options every command shares."""
+    p.add_argument("plan", metavar="PLAN.dxf", help="floor plan (DXF)")
+    p.add_argument("--units", metavar="U", help="drawing unit, overriding the header: mm, cm, m, in, ft")
+    p.add_argument("--window", metavar="XMIN,YMIN,XMAX,YMAX",
+                   help="use only this part of the drawing (drawing units)")
+
+
+def load_plan_from_args(args, roles=None):
+    from ..dxfimport import load_plan
+    window = parse_floats(args.window, 4, "--window") if getattr(args, "window", None) else None
+    return load_plan(args.plan, units=getattr(args, "units", None), window=window, roles=roles)

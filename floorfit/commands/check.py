@@ -1,0 +1,77 @@
+"""``floorfit check``: the whole site check with findings, turnability map and report."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from ._common import add_plan_arguments, load_plan_from_args
+
+NAME = "check"
+HELP = "check a site for a vehicle: stations, pinch points, no-turn stretches, clearance; writes a report"
+ORDER = 10
+
+
+def add_arguments(p) -> None:
+    add_plan_arguments(p)
+    p.add_argument("--vehicle", required=True, metavar="VEHICLE.toml", help="vehicle file")
+    p.add_argument("--site", metavar="SITE.toml", help="site file: stations, layer roles, clearance")
+    p.add_argument("--station", action="append", default=[], metavar="NAME=X,Y[,HEADING]",
+                   help="a station (drawing frame, metres; heading in degrees if docking); repeatable")
+    p.add_argument("--out", default="floorfit-report", metavar="DIR", help="output folder (default ./floorfit-report)")
+    p.add_argument("--force", action="store_true", help="write into a folder that holds other files")
+    p.add_argument("--heading-step", type=float, metavar="DEG", help="uniform heading step, degrees")
+    p.add_argument("--workers", type=int, default=1, metavar="N", help="processes for the slices (default 1)")
+    p.add_argument("--quiet", action="store_true", help="no progress output")
+
+
+def run(args) -> int:
+    result, written = check_and_report(args)
+    print(summary_text(result, written))
+    return 0 if result.passed else 1
+
+
+def check_and_report(args):
+    """Shared by ``check`` and ``demo``: read inputs, run the check, write the report."""
+    from ..check import run_check
+    from ..report import Progress, write_report
+    from ..site import Site, parse_station_flag, read_site, stations_from_drawing
+    from ..vehicle import load_vehicle
+
+    site = read_site(args.site) if args.site else Site()
+    extra = [parse_station_flag(s) for s in args.station]
+    vehicle = load_vehicle(args.vehicle)
+    progress = Progress(quiet=args.quiet)
+    progress.stage("reading the drawing")
+    plan = load_plan_from_args(args, roles=site.roles)
+    stations = list(site.stations)
+    if site.station_layer:
+        stations += stations_from_drawing(args.plan, site.station_layer, plan.metres_per_unit)
+    given = {s.name for s in extra}
+    stations = [s for s in stations if s.name not in given] + extra
+    result = run_check(plan, vehicle, stations, site=site, heading_step_deg=args.heading_step,
+                       workers=args.workers, progress=progress.stage)
+    progress.done()
+    written = write_report(result, args.out, force=args.force, quiet=args.quiet)
+    return result, written
+
+
+def summary_text(result, written) -> str:
+    lines = []
+    verdict = "PASS" if result.passed else "FAIL"
+    n = len(result.stations)
+    pairs = [(a, b) for a in result.reachable for b in result.reachable[a] if a < b]
+    bad = [(a, b) for a, b in pairs if not result.reachable[a][b]]
+    lines.append(f"{verdict}: {result.vehicle.name} in {Path(str(result.plan.source)).name} — "
+                 f"{n} stations, {len(bad)} of {len(pairs)} station pairs not connected, "
+                 f"{len(result.findings)} findings")
+    for f in result.findings:
+        where = f" [{f.label}]" if f.label else ""
+        lines.append(f"  {f.id} {f.kind:8s} at ({f.x:.2f}, {f.y:.2f}) m{where}: {f.summary}")
+    for note in result.notes:
+        lines.append(f"  note: {note}")
+    s = result.settings
+    lines.append(f"  geometry within {s['tolerance_m'] * 1000:.0f} mm (sound bound: errs towards 'does not fit'); "
+                 f"{s['headings']} heading slices; screening only, not a risk assessment")
+    if "html" in written:
+        lines.append(f"report: {written['html']}")
+    return "\n".join(lines)
