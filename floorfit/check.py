@@ -29,6 +29,7 @@ from typing import Callable
 import networkx as nx
 import numpy as np
 import shapely
+import shapely.ops
 from scipy import ndimage
 from shapely.geometry import Point, box
 
@@ -125,9 +126,11 @@ class _Analysis:
     def seeds(self, slices: SliceSet, comps, st_regions, field, min_area):
         seeds = {}
         keep = set(r for rs in st_regions.values() for r in rs)
+        edge = slices.domain.exterior
         for cid, c in enumerate(comps):
             big = max(slices.components[k][i].area for k, i in c) >= min_area
-            if cid in keep or big:
+            exterior = cid not in keep and any(slices.components[k][i].intersects(edge) for k, i in c)
+            if cid in keep or (big and not exterior):
                 pts = []
                 for k, i in c:
                     poly = slices.components[k][i]
@@ -142,11 +145,42 @@ class _Analysis:
         return seeds
 
     def joins(self, slices, G, field, floor):
+        """Join events between *places*: roadmap regions, with regions that hold the same floor
+        facing the opposite way merged first (that is a no-turn matter, not a blocked passage)."""
         comps, comp_of, st_regions = self.regions(slices, G)
         min_area = 2.0 * self.vehicle.footprint.area
         seeds = self.seeds(slices, comps, st_regions, field, min_area)
-        events = join_events(field, seeds, floor)
-        return comps, comp_of, st_regions, seeds, events
+        group = {r: r for r in seeds}
+
+        def find(r):
+            while group[r] != r:
+                group[r] = group[group[r]]
+                r = group[r]
+            return r
+
+        ids = sorted(seeds)
+        direction = {r: _mean_heading(slices, comps[r]) for r in ids}
+        geoms = {r: self.side_geometry(slices, comps, [r]) for r in ids} if len(ids) <= 60 else {}
+        for i, ra in enumerate(ids):
+            for rb in ids[i + 1:]:
+                if ra not in geoms or not _reversed(direction, [ra], [rb]):
+                    continue
+                inter = geoms[ra].intersection(geoms[rb])
+                if not inter.is_empty and inter.area > 0.25 * min(geoms[ra].area, geoms[rb].area):
+                    group[find(rb)] = find(ra)
+        places: dict[int, set] = {}
+        place_seeds: dict[int, list] = {}
+        for r in ids:
+            g = find(r)
+            places.setdefault(g, set()).update(comps[r])
+            place_seeds.setdefault(g, []).append(seeds[r])
+        pseeds = {g: np.unique(np.vstack(v), axis=0) for g, v in place_seeds.items()}
+        pcomps = [set() for _ in range(len(comps))]
+        for g, nodes in places.items():
+            pcomps[g] = nodes
+        st_places = {n: sorted({find(r) for r in rs if r in group}) for n, rs in st_regions.items()}
+        events = join_events(field, pseeds, floor)
+        return pcomps, comp_of, st_places, pseeds, events
 
     def locate(self, slices, comps, seeds, field, ev, union_sides):
         """Local (x, y) of a join; for regions that overlap in the plane, a point of the overlap."""
@@ -155,7 +189,7 @@ class _Analysis:
         if a_side is not None and b_side is not None:
             inter = a_side.intersection(b_side)
             if not inter.is_empty and inter.area > 0:
-                p = inter.representative_point()
+                p = shapely.ops.nearest_points(inter, Point(x, y))[0]
                 return p.x, p.y, True
         return x, y, False
 
@@ -227,14 +261,15 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
 
     findings: list[Finding] = []
     needed = min_width(vehicle.footprint)
+    _, _, st_graph = A.regions(slices, G)
     comps, comp_of, st_regions, seeds, events = A.joins(slices, G, field, floor)
     names = [s.name for s in stations]
-    reach = {a: {b: bool(set(st_regions[a]) & set(st_regions[b])) for b in names} for a in names}
+    reach = {a: {b: bool(set(st_graph[a]) & set(st_graph[b])) for b in names} for a in names}
     notes: list[str] = []
 
     # stations where the vehicle does not fit at all
     for s in stations:
-        if not st_regions[s.name]:
+        if not st_graph[s.name]:
             lx, ly = A.st_local[s.name]
             hd = f" at heading {s.heading_deg:g}° (±{s.heading_tolerance_deg:g}°)" if s.heading_deg is not None else ""
             findings.append(Finding(
@@ -289,6 +324,7 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
                     if ra in tree and rb in tree and nx.has_path(tree, ra, rb):
                         path = nx.shortest_path(tree, ra, rb)
                         found = [tree.edges[u, v]["finding"] for u, v in zip(path[:-1], path[1:])]
+                        found = [f for f in found if f is not None]
                         break
                 if found:
                     break
@@ -366,7 +402,7 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
         tmask = fill_polygons(shapely.get_parts(troom), raster.x0, raster.y0, map_cell, *counts.shape[::-1])
         reach_d = float(np.hypot(*centre)) + 0.5 * vehicle.length_m + map_cell
         far = ndimage.distance_transform_edt(~tmask) * map_cell > reach_d if tmask.any() else np.ones_like(tmask)
-        noturn = fits & far
+        noturn = fits & far & ~_exterior(fits, raster, stations, A.st_local)
         lab, n = ndimage.label(noturn, structure=np.ones((3, 3), bool))
         min_cells = max(4, int(vehicle.footprint.area / map_cell ** 2))
         for L in range(1, n + 1):
@@ -392,6 +428,24 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
                        findings=findings, cuts=cuts_ids, turnability=turnability, notes=notes)
 
 
+def _mean_heading(slices, nodes) -> complex:
+    """Area-weighted mean heading direction of roadmap nodes, as a unit-ish complex number."""
+    z = 0j
+    for k, i in nodes:
+        z += slices.components[k][i].area * np.exp(1j * np.radians(slices.cells.headings[k]))
+    return z
+
+
+def _reversed(mean_dir, sa, sb, tol_deg: float = 30.0) -> bool:
+    """True when the two sides' mean headings are opposite (within ``tol_deg``)."""
+    za = sum(mean_dir[r] for r in sa if r in mean_dir)
+    zb = sum(mean_dir[r] for r in sb if r in mean_dir)
+    if abs(za) < 1e-12 or abs(zb) < 1e-12:
+        return False
+    diff = abs(np.degrees(np.angle(za / zb)))
+    return diff > 180.0 - tol_deg
+
+
 def _plain_regions(slices, comp_of, gslices, gcomps, members) -> set:
     """Plain-vehicle regions that hold the representative points of the grown vehicle's regions."""
     out = set()
@@ -405,6 +459,17 @@ def _plain_regions(slices, comp_of, gslices, gcomps, members) -> set:
     return out
 
 
+def _exterior(fits: np.ndarray, raster, stations, st_local) -> np.ndarray:
+    """Cells of floor connected to the map's border (outside the drawing), unless a station lies there."""
+    lab, _ = ndimage.label(fits, structure=np.ones((3, 3), bool))
+    border = np.unique(np.concatenate([lab[0], lab[-1], lab[:, 0], lab[:, -1]]))
+    border = set(int(b) for b in border if b > 0)
+    for s in stations:
+        iy, ix = raster.index_of(*st_local[s.name])
+        border.discard(int(lab[iy, ix]))
+    return np.isin(lab, list(border)) if border else np.zeros_like(fits)
+
+
 def _noturn_finding(plan, vehicle, slices, raster, mask, fits, stations, st_local):
     ys, xs = np.nonzero(mask)
     cx, cy = raster.centres()
@@ -413,7 +478,10 @@ def _noturn_finding(plan, vehicle, slices, raster, mask, fits, stations, st_loca
     mx, my = px.mean(), py.mean()
     j = int(np.argmin(np.hypot(px - mx, py - my)))
     lx, ly = float(px[j]), float(py[j])
-    free = raster.free[:, ys, xs].any(axis=1)
+    # headings at which the vehicle can travel along the stretch: free over at least half of
+    # the stretch's cells (a vehicle that fits across an aisle only at one spot is not listed)
+    frac = raster.free[:, ys, xs].mean(axis=1)
+    free = frac >= 0.5 * frac.max()
     ranges = heading_ranges(free, slices.cells.headings, slices.cells.below, slices.cells.above)
     # mouths: where the stretch meets floor from which the vehicle can turn
     ring = ndimage.binary_dilation(mask, np.ones((3, 3), bool), iterations=2) & fits & ~mask

@@ -178,22 +178,32 @@ def join_events(field: ClearanceField, seeds: dict[int, np.ndarray], floor: floa
 def _join_cell(lab, prev_lab, L, mask, dist, t, seeds, ra, rb, find, regions):
     """The cell of component L (at this level) nearest to both the ra-side and the rb-side of the previous level."""
     comp = lab == L
-    if prev_lab is None:
-        ys, xs = np.nonzero(comp)
-        return int(ys[0]), int(xs[0])
     side = {}
-    for root in (ra, rb):
-        members = [r for r in regions if find(r) == root]
-        labels = set()
-        for r in members:
-            s = seeds[r]
-            v = prev_lab[s[:, 0], s[:, 1]]
-            labels.update(int(x) for x in v[v > 0])
-        side[root] = np.isin(prev_lab, list(labels)) if labels else np.zeros_like(comp)
+    overlap = prev_lab is None
+    if not overlap:
+        lab_sets = {}
+        for root in (ra, rb):
+            members = [r for r in regions if find(r) == root]
+            labels = set()
+            for r in members:
+                s = seeds[r]
+                v = prev_lab[s[:, 0], s[:, 1]]
+                labels.update(int(x) for x in v[v > 0])
+            lab_sets[root] = labels
+            side[root] = np.isin(prev_lab, list(labels)) if labels else np.zeros_like(comp)
+        overlap = bool(lab_sets[ra] & lab_sets[rb]) or not lab_sets[ra] or not lab_sets[rb]
+    if overlap:
+        # the sides were never apart on the raster (their floor overlaps): use their seed cells
+        for root in (ra, rb):
+            m = np.zeros_like(comp)
+            for r in regions:
+                if find(r) == root:
+                    m[seeds[r][:, 0], seeds[r][:, 1]] = True
+            side[root] = m
     # restrict the distance computation to the bounding box of the component, for speed
     ys, xs = np.nonzero(comp)
     y0, y1, x0, x1 = ys.min(), ys.max() + 1, xs.min(), xs.max() + 1
-    new = (comp & ~(prev_lab > 0))[y0:y1, x0:x1]
+    new = comp[y0:y1, x0:x1] if overlap else (comp & ~(prev_lab > 0))[y0:y1, x0:x1]
     da = ndimage.distance_transform_edt(~side[ra][y0:y1, x0:x1]) if side[ra].any() else None
     db = ndimage.distance_transform_edt(~side[rb][y0:y1, x0:x1]) if side[rb].any() else None
     if da is None or db is None or not new.any():
