@@ -82,63 +82,64 @@ def arc_points_outside(cx: float, cy: float, r: float, a0: float, a1: float, tol
     return np.vstack([start, inner, end])
 
 
-def _bulge_arc(p0: np.ndarray, p1: np.ndarray, bulge: float):
-    """Centre, radius, start and end angle (ccw order) of a bulge segment."""
-    chord = p1 - p0
-    c = math.hypot(chord[0], chord[1])
-    theta = 4.0 * math.atan(bulge)            # included angle, signed
-    r = c / (2.0 * math.sin(abs(theta) / 2.0))
-    mid = (p0 + p1) / 2.0
-    # distance from the chord midpoint to the centre, signed by the bulge direction
-    h = r * math.cos(theta / 2.0)
-    normal = np.array([-chord[1], chord[0]]) / c
-    centre = mid + normal * (h if bulge > 0 else -h) * (1 if abs(theta) <= math.pi else 1)
-    a_start = math.atan2(p0[1] - centre[1], p0[0] - centre[0])
-    return centre, r, a_start, theta
-
-
 def bulge_polyline(points: np.ndarray, bulges: np.ndarray, closed: bool, tol: float,
                    max_vertices: int | None = None, outside: bool = False,
                    orientation: float = 0.0) -> np.ndarray:
     """Flatten a 2-D polyline with bulges (tan of a quarter of each segment's included angle).
 
-    ``outside``: when True, arcs that bulge out of the polygon (same turning sense as
-    ``orientation``, the sign of the polygon's signed area) are replaced by
-    circumscribed polylines, arcs that bulge in by chords, so the result encloses the
-    true outline. Otherwise chords of the true arcs are used.
+    Each bulge segment is the arc through its two vertices with included angle
+    4·atan(bulge), counter-clockwise for a positive bulge. ``outside``: when True, arcs
+    that bulge out of the polygon (bulge sign equal to ``orientation``, the sign of the
+    polygon's signed area) are replaced by circumscribed polylines and arcs that bulge
+    in by chords, so the result encloses the true outline. Otherwise chords of the true
+    arcs are used (sagitta ≤ ``tol``).
     """
     pts = np.asarray(points, dtype=float)
-    bul = np.asarray(bulges, dtype=float)
     n = len(pts)
     if n == 0:
         return pts.reshape(0, 2)
+    xs, ys = pts[:, 0].tolist(), pts[:, 1].tolist()
+    bl = [float(b) for b in np.asarray(bulges, dtype=float).reshape(-1)[:n]]
+    bl += [0.0] * (n - len(bl))
     seg_count = n if closed else n - 1
-    out = [pts[:1]]
-    total = 1
+    ox, oy = [xs[0]], [ys[0]]
     for i in range(seg_count):
-        p0 = pts[i]
-        p1 = pts[(i + 1) % n]
-        b = bul[i] if i < len(bul) else 0.0
-        if b == 0.0 or not math.isfinite(b) or np.allclose(p0, p1):
-            out.append(p1[None, :])
-            total += 1
+        j = (i + 1) % n
+        x0, y0, x1, y1, b = xs[i], ys[i], xs[j], ys[j], bl[i]
+        dx, dy = x1 - x0, y1 - y0
+        c = math.hypot(dx, dy)
+        if b == 0.0 or not math.isfinite(b) or c == 0.0:
+            ox.append(x1)
+            oy.append(y1)
             continue
-        centre, r, a_start, theta = _bulge_arc(p0, p1, b)
-        a_end = a_start + theta
-        lo, hi = (a_start, a_end) if theta > 0 else (a_end, a_start)
-        bulges_out = outside and (np.sign(b) == np.sign(orientation))
-        if bulges_out:
-            arc = arc_points_outside(centre[0], centre[1], r, lo, hi, tol)
+        theta = 4.0 * math.atan(b)                    # included angle, signed
+        r = c / (2.0 * math.sin(abs(theta) / 2.0))
+        h = r * math.cos(theta / 2.0)                  # chord midpoint -> centre, along the left normal
+        sgn = 1.0 if b > 0 else -1.0
+        cx = (x0 + x1) / 2.0 - dy / c * h * sgn
+        cy = (y0 + y1) / 2.0 + dx / c * h * sgn
+        a0 = math.atan2(y0 - cy, x0 - cx)
+        if outside and (b > 0) == (orientation > 0):
+            step = math.pi / 2 if tol >= r else 2.0 * math.acos(r / (r + tol))
+            k = max(1, math.ceil(abs(theta) / step - 1e-12))
+            delta = theta / k
+            rr = r / math.cos(delta / 2.0)
+            for m in range(k):
+                ang = a0 + delta * (m + 0.5)
+                ox.append(cx + rr * math.cos(ang))
+                oy.append(cy + rr * math.sin(ang))
         else:
-            arc = arc_points(centre[0], centre[1], r, lo, hi, tol)
-        if theta < 0:
-            arc = arc[::-1]
-        arc[0] = p0
-        arc[-1] = p1
-        out.append(arc[1:])
-        total += len(arc) - 1
-        _check(total, max_vertices)
-    return np.vstack(out)
+            k = arc_segment_count(r, abs(theta), tol)
+            delta = theta / k
+            for m in range(1, k):
+                ang = a0 + delta * m
+                ox.append(cx + r * math.cos(ang))
+                oy.append(cy + r * math.sin(ang))
+        ox.append(x1)
+        oy.append(y1)
+        if max_vertices is not None and len(ox) > max_vertices:
+            raise TooManyVertices(len(ox))
+    return np.column_stack([ox, oy])
 
 
 def ellipse_points(center, major_axis, ratio: float, start_param: float, end_param: float,
@@ -154,7 +155,7 @@ def ellipse_points(center, major_axis, ratio: float, start_param: float, end_par
     z = z / np.linalg.norm(z)
     a = float(np.linalg.norm(u))
     b = a * abs(ratio)
-    v = np.cross(z, u) * abs(ratio)
+    v = np.array([z[1] * u[2] - z[2] * u[1], z[2] * u[0] - z[0] * u[2], z[0] * u[1] - z[1] * u[0]]) * abs(ratio)
     span = end_param - start_param
     while span <= 0:
         span += 2 * math.pi

@@ -55,7 +55,7 @@ DEFAULT_LAYER_RULES: list[tuple[tuple[str, ...], str, str]] = [
      "elevation / section / detail view (not plan)"),
     (("*hidden*", "*hid", "*ovhd*", "*overhead*", "*-abov*", "*above*", "*projection*",
       "a-roof*", "r-*", "*roof*", "*dach*", "a-header*", "*-header*", "s-foot*", "*footer*",
-      "*footing*", "s-fndn*", "*foundation*", "s-slab*", "*-slab*", "ff-*", "*joist*",
+      "*footing*", "s-fndn*", "*foundation*", "*stem-wall*", "*stemwall*", "s-slab*", "*-slab*", "ff-*", "*joist*",
       "*truss*", "*canopy*", "a-flor-cano*", "a-flor-roof*"), "ignore",
      "hidden / overhead / below-floor linework"),
     (("a-flor-patt*", "a-flor-finish*", "a-flor-levl*", "a-flor-tile*", "*flooring*", "floor",
@@ -109,6 +109,8 @@ _ISO_CODES: dict[str, tuple[str, str]] = {
 DEFAULT_BLOCK_RULES: list[tuple[tuple[str, ...], str, str]] = [
     (("*door*", "d[0-9][0-9]*", "$dorlib*", "*dorlib*", "*tuer*", "*tür*", "*porte*", "*puerta*",
       "*门*", "*門*"), "door", "door block name"),
+    (("*grid*", "*bubble*", "sect-*", "*section*mark*", "*elev*mark*", "*north*", "*title*",
+      "*detail*", "*revision*", "*break*line*", "*scale*bar*"), "ignore", "annotation symbol block"),
 ]
 
 # Furniture policy, applied to block names first, then the layer name.

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from floorfit.errors import InputError
+from floorfit.motion._checks import positive_number
 from floorfit.motion.poses import Pose, as_pose, relative_pose
 from floorfit.motion.segments import Segment, arc, straight
 
@@ -29,15 +30,8 @@ class Word:
 
 
 def check_radius(radius) -> float:
-    try:
-        r = float(radius)
-    except (TypeError, ValueError):
-        raise InputError(f"turning radius must be a number of metres, got {radius!r}",
-                         where="radius") from None
-    if not (r > 0 and np.isfinite(r)):
-        raise InputError(f"turning radius must be positive and finite, got {radius!r}",
-                         where="radius")
-    return r
+    """The turning radius (m) as a positive float."""
+    return positive_number(radius, "radius")
 
 
 def normalised_goal(start, goal, radius: float) -> np.ndarray:

@@ -81,7 +81,8 @@ def grid_distances(grid: OccupancyGrid, goal_xy) -> np.ndarray:
         return out
     index = np.arange(rows * cols).reshape(rows, cols)
     src, dst, cost = [], [], []
-    for d_row, d_col, step in ((0, 1, 1.0), (1, 0, 1.0), (1, 1, math.sqrt(2)), (1, -1, math.sqrt(2))):
+    diagonal = math.sqrt(2.0)
+    for d_row, d_col, step in ((0, 1, 1.0), (1, 0, 1.0), (1, 1, diagonal), (1, -1, diagonal)):
         # pairs (row, col) -> (row + d_row, col + d_col) that stay on the grid
         here = (slice(0, rows - d_row), slice(max(0, -d_col), cols - max(0, d_col)))
         there = (slice(d_row, rows), slice(max(0, d_col), cols - max(0, -d_col)))

@@ -32,10 +32,11 @@ from typing import Callable, Sequence
 import numpy as np
 
 from floorfit.errors import InputError
+from floorfit.motion._checks import positive_number, whole_number
 from floorfit.motion._words import Word, word_segments
 from floorfit.motion.dubins import dubins_length, dubins_words
 from floorfit.motion.grid_heuristic import OccupancyGrid, grid_heuristic
-from floorfit.motion.poses import Pose, as_pose, wrap_angle
+from floorfit.motion.poses import as_pose, from_local
 from floorfit.motion.reeds_shepp import reeds_shepp_length, reeds_shepp_words
 from floorfit.motion.sampling import sample
 from floorfit.motion.segments import Segment, arc, merge_segments, straight
@@ -66,6 +67,8 @@ class CarPlanResult:
         ``inf`` when not found.
     elapsed_s : float
         Wall-clock time of the search (s).
+    poses_checked : int
+        Poses given to ``is_free``.
     """
 
     status: str
@@ -74,6 +77,7 @@ class CarPlanResult:
     reason: str = ""
     cost: float = math.inf
     elapsed_s: float = 0.0
+    poses_checked: int = 0
 
 
 @dataclass(frozen=True)
@@ -94,16 +98,6 @@ def _primitives(length: float, radius: float, reverse: bool, step_m: float,
                 arc(origin, sign * length, steer, radius)
             pts = sample([seg], step_m, step_deg)[1:]
             out.append(_Primitive(sign, steer, np.asarray(seg.end), pts))
-    return out
-
-
-def _transform(local: np.ndarray, pose: Sequence[float]) -> np.ndarray:
-    x, y, h = pose
-    c, s = math.cos(h), math.sin(h)
-    out = np.empty_like(local)
-    out[:, 0] = x + c * local[:, 0] - s * local[:, 1]
-    out[:, 1] = y + s * local[:, 0] + c * local[:, 1]
-    out[:, 2] = h + local[:, 2]
     return out
 
 
@@ -133,22 +127,13 @@ def _check_bounds(bounds) -> tuple[float, float, float, float]:
     try:
         xmin, ymin, xmax, ymax = (float(v) for v in bounds)
     except (TypeError, ValueError):
-        raise InputError(f"bounds must be (xmin, ymin, xmax, ymax) in metres, got {bounds!r}",
+        raise InputError(f"expected (xmin, ymin, xmax, ymax) in metres, got {bounds!r}",
                          where="bounds") from None
-    if not (all(math.isfinite(v) for v in (xmin, ymin, xmax, ymax)) and xmin < xmax and ymin < ymax):
-        raise InputError(f"bounds must be finite with xmin < xmax and ymin < ymax, got {bounds!r}",
-                         where="bounds")
+    finite = all(math.isfinite(v) for v in (xmin, ymin, xmax, ymax))
+    if not (finite and xmin < xmax and ymin < ymax):
+        raise InputError(f"expected finite values with xmin < xmax and ymin < ymax, "
+                         f"got {bounds!r}", where="bounds")
     return xmin, ymin, xmax, ymax
-
-
-def _positive(value, name: str) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"expected a positive number, got {value!r}", where=name) from None
-    if not (v > 0 and math.isfinite(v)):
-        raise InputError(f"expected a positive number, got {value!r}", where=name)
-    return v
 
 
 def _word_cost(word: Word, radius: float, arriving_sign: int, reverse_factor: float,
@@ -164,6 +149,239 @@ def _word_cost(word: Word, radius: float, arriving_sign: int, reverse_factor: fl
             cost += change_cost
         last = sign
     return cost
+
+
+@dataclass(frozen=True)
+class _Settings:
+    """Checked arguments of :func:`plan_car_path` (m, rad)."""
+
+    start: tuple[float, float, float]
+    goal: tuple[float, float, float]
+    radius: float
+    reverse: bool
+    bounds: tuple[float, float, float, float]
+    tol_xy: float
+    tol_heading: float
+    res: float
+    heading_bins: int
+    max_expansions: int
+    time_limit_s: float | None
+    step_m: float
+    step_deg: float
+    reverse_factor: float
+    change_cost: float
+    analytic_tries: int
+
+
+def _settings(start, goal, min_turn_radius, reverse, bounds, goal_tolerance, xy_resolution,
+              heading_bins, max_expansions, time_limit_s, step_m, step_deg,
+              reverse_cost_factor, direction_change_cost_m, analytic_tries) -> _Settings:
+    radius = positive_number(min_turn_radius, "min_turn_radius")
+    box = _check_bounds(bounds)
+    try:
+        raw_xy, raw_heading = goal_tolerance
+    except (TypeError, ValueError):
+        raise InputError(f"expected (metres, radians), got {goal_tolerance!r}",
+                         where="goal_tolerance") from None
+    factor = positive_number(reverse_cost_factor, "reverse_cost_factor")
+    if factor < 1.0:
+        raise InputError(f"expected a factor >= 1, got {reverse_cost_factor!r}",
+                         where="reverse_cost_factor")
+    out = _Settings(
+        start=as_pose(start, "start"),
+        goal=as_pose(goal, "goal"),
+        radius=radius,
+        reverse=bool(reverse),
+        bounds=box,
+        tol_xy=positive_number(raw_xy, "goal_tolerance[0]", allow_zero=True),
+        tol_heading=positive_number(raw_heading, "goal_tolerance[1]", allow_zero=True),
+        res=radius / 4.0 if xy_resolution is None
+        else positive_number(xy_resolution, "xy_resolution"),
+        heading_bins=whole_number(heading_bins, "heading_bins", minimum=4),
+        max_expansions=whole_number(max_expansions, "max_expansions", minimum=1),
+        time_limit_s=None if time_limit_s is None
+        else positive_number(time_limit_s, "time_limit_s"),
+        step_m=positive_number(step_m, "step_m"),
+        step_deg=positive_number(step_deg, "step_deg"),
+        reverse_factor=factor,
+        change_cost=2.0 * radius if direction_change_cost_m is None else
+        positive_number(direction_change_cost_m, "direction_change_cost_m", allow_zero=True),
+        analytic_tries=whole_number(analytic_tries, "analytic_tries", minimum=1),
+    )
+    for name, pose in (("start", out.start), ("goal", out.goal)):
+        if not (box[0] <= pose[0] <= box[2] and box[1] <= pose[1] <= box[3]):
+            raise InputError(f"pose ({pose[0]:.3f}, {pose[1]:.3f}) m lies outside the search "
+                             f"bounds {box}", where=name)
+    return out
+
+
+def _two_d_heuristic(heuristic_grid, goal_xy):
+    if heuristic_grid is None:
+        return None
+    if isinstance(heuristic_grid, OccupancyGrid):
+        return grid_heuristic(heuristic_grid, goal_xy)
+    if callable(heuristic_grid):
+        return heuristic_grid
+    raise InputError("expected an OccupancyGrid or a function of (N, 2) positions",
+                     where="heuristic_grid")
+
+
+def _wrapped(angle: float) -> float:
+    """Scalar angle (rad) into [-pi, pi)."""
+    return (angle + math.pi) % (2.0 * math.pi) - math.pi
+
+
+class _Search:
+    """One hybrid A* search; nodes are kept in parallel lists indexed by node id."""
+
+    def __init__(self, s: _Settings, check: _Checker, h2d):
+        self.s = s
+        self.check = check
+        self.h2d = h2d
+        self.nh_length = reeds_shepp_length if s.reverse else dubins_length
+        self.words_of = reeds_shepp_words if s.reverse else dubins_words
+        # Primitives long enough to leave the cell: even on an arc the chord
+        # (L sin(L/2R) / (L/2R)) exceeds the cell diagonal.
+        diagonal = math.sqrt(2.0) * s.res
+        self.prim_length = 1.05 * diagonal / float(np.sinc(diagonal / (2.0 * math.pi * s.radius)))
+        self.prims = _primitives(self.prim_length, s.radius, s.reverse, s.step_m, s.step_deg)
+        self.ends = np.stack([p.end for p in self.prims])
+        self.bin_width = 2.0 * math.pi / s.heading_bins
+        # node store: pose, parent, primitive used to get there, cost, arriving direction
+        self.poses: list[tuple[float, float, float]] = [s.start]
+        self.parents: list[int] = [-1]
+        self.via: list[int] = [-1]
+        self.costs: list[float] = [0.0]
+        self.signs: list[int] = [0]
+
+    def heuristic(self, poses: np.ndarray) -> np.ndarray:
+        h = np.asarray(self.nh_length(poses, self.s.goal, self.s.radius), dtype=float).reshape(-1)
+        if self.h2d is not None:
+            h = np.maximum(h, np.asarray(self.h2d(poses[:, :2]), dtype=float).reshape(-1))
+        return h
+
+    def cell(self, pose) -> tuple[int, int, int]:
+        s = self.s
+        return (round((pose[0] - s.bounds[0]) / s.res), round((pose[1] - s.bounds[1]) / s.res),
+                round(_wrapped(pose[2]) / self.bin_width) % s.heading_bins)
+
+    def at_goal(self, pose) -> bool:
+        g = self.s.goal
+        return (math.hypot(pose[0] - g[0], pose[1] - g[1]) <= self.s.tol_xy
+                and abs(_wrapped(pose[2] - g[2])) <= self.s.tol_heading)
+
+    def step_cost(self, node: int, prim: _Primitive) -> float:
+        cost = self.prim_length * (self.s.reverse_factor if prim.sign < 0 else 1.0)
+        if self.signs[node] and prim.sign != self.signs[node]:
+            cost += self.s.change_cost
+        return cost
+
+    def path_to(self, node: int) -> list[Segment]:
+        chain = []
+        while self.parents[node] >= 0:
+            chain.append(node)
+            node = self.parents[node]
+        segs = []
+        for n in reversed(chain):
+            p = self.prims[self.via[n]]
+            origin = self.poses[self.parents[n]]
+            segs.append(straight(origin, p.sign * self.prim_length) if p.steer == 0
+                        else arc(origin, p.sign * self.prim_length, p.steer, self.s.radius))
+        return segs
+
+    def analytic(self, node: int) -> tuple[list[Segment], float] | None:
+        """The cheapest free analytic path from ``node`` to the goal, with its cost."""
+        s = self.s
+
+        def cost(word: Word) -> float:
+            return _word_cost(word, s.radius, self.signs[node], s.reverse_factor, s.change_cost)
+
+        words = sorted(self.words_of(self.poses[node], s.goal, s.radius), key=cost)
+        for word in words[:s.analytic_tries]:
+            segs = word_segments(self.poses[node], word, s.radius)
+            pts = sample(segs, s.step_m, s.step_deg)
+            if len(pts) == 0 or self.check(pts).all():
+                return segs, cost(word)
+        return None
+
+    def children(self, node: int, closed: set, best_cost: dict) -> list[tuple]:
+        """Free children (pose, primitive, cost, cell) of ``node`` that improve their cell."""
+        pose = self.poses[node]
+        candidates = []
+        for k, end in enumerate(from_local(pose, self.ends)):
+            child_pose = (float(end[0]), float(end[1]), float(end[2]))
+            child_key = self.cell(child_pose)
+            if child_key in closed:
+                continue
+            g = self.costs[node] + self.step_cost(node, self.prims[k])
+            if g < best_cost.get(child_key, math.inf) - 1e-12:
+                candidates.append((child_pose, k, g, child_key))
+        if not candidates:
+            return []
+        # collision-check the samples of the remaining primitives in one call
+        chosen = [self.prims[c[1]].samples for c in candidates]
+        free = self.check(from_local(pose, np.concatenate(chosen)))
+        ok = np.logical_and.reduceat(free, np.cumsum([0] + [len(c) for c in chosen])[:-1])
+        return [c for c, good in zip(candidates, ok) if good]
+
+    def add(self, pose, parent: int, prim: int, cost: float) -> int:
+        self.poses.append(pose)
+        self.parents.append(parent)
+        self.via.append(prim)
+        self.costs.append(cost)
+        self.signs.append(self.prims[prim].sign)
+        return len(self.poses) - 1
+
+    def run(self, t0: float) -> tuple[str, list[Segment], int, str, float]:
+        s = self.s
+        h0 = float(self.heuristic(np.asarray([s.start]))[0])
+        if not math.isfinite(h0):
+            return (NOT_FOUND, [], 0, "the 2-D heuristic gives the start no route to the goal",
+                    math.inf)
+        best_cost = {self.cell(s.start): 0.0}
+        closed: set = set()
+        heap = [(h0, 0, 0, h0)]  # (f, tie-break, node, h)
+        tie = 1
+        expansions = 0
+        next_analytic = 0
+        reason = (f"searched every reachable cell at {s.res:.3g} m / "
+                  f"{math.degrees(self.bin_width):.3g} deg without reaching the goal; "
+                  "a finer resolution may still find a path")
+        while heap:
+            _f, _tie, node, h = heapq.heappop(heap)
+            key = self.cell(self.poses[node])
+            if key in closed or self.costs[node] > best_cost.get(key, math.inf) + 1e-12:
+                continue
+            closed.add(key)
+            expansions += 1
+            if self.at_goal(self.poses[node]):
+                return FOUND, self.path_to(node), expansions, \
+                    "reached the goal cell within tolerance", self.costs[node]
+            if expansions >= next_analytic:
+                found = self.analytic(node)
+                if found is not None:
+                    return FOUND, self.path_to(node) + found[0], expansions, \
+                        "completed by an analytic path", self.costs[node] + found[1]
+                # attempt every 1 to 10 expansions, more often near the goal
+                next_analytic = expansions + max(1, min(10, int(h / (2.0 * self.prim_length))))
+            if expansions >= s.max_expansions:
+                reason = f"stopped after {expansions} expansions (max_expansions)"
+                break
+            if s.time_limit_s is not None and expansions % 32 == 0 \
+                    and time.perf_counter() - t0 > s.time_limit_s:
+                reason = f"stopped after {time.perf_counter() - t0:.1f} s (time_limit_s)"
+                break
+            kids = self.children(node, closed, best_cost)
+            if not kids:
+                continue
+            estimates = self.heuristic(np.asarray([c[0] for c in kids]))
+            for (pose, k, g, cell_key), hc in zip(kids, estimates):
+                if not math.isfinite(hc) or g >= best_cost.get(cell_key, math.inf) - 1e-12:
+                    continue
+                best_cost[cell_key] = g
+                heapq.heappush(heap, (g + float(hc), tie, self.add(pose, node, k, g), float(hc)))
+                tie += 1
+        return NOT_FOUND, [], expansions, reason, math.inf
 
 
 def plan_car_path(
@@ -222,199 +440,28 @@ def plan_car_path(
         Cost (m) added for each change between forward and reverse; default
         ``2 * min_turn_radius``.
     analytic_tries : int
-        How many of the shortest analytic candidates to check per attempt.
+        How many of the cheapest analytic candidates to check per attempt.
 
     Returns
     -------
     CarPlanResult
         ``status`` is "found" with the segments, or "not-found-within-limits" with
         the reason (a start or goal pose that is not free, an exhausted search at this
-        resolution, or a limit reached).
+        resolution, or a limit reached). Malformed arguments, and a start or goal
+        outside ``bounds``, raise :class:`~floorfit.errors.InputError`.
     """
     t0 = time.perf_counter()
-    start_pose = as_pose(start, "start")
-    goal_pose = as_pose(goal, "goal")
-    radius = _positive(min_turn_radius, "min_turn_radius")
-    box = _check_bounds(bounds)
-    res = radius / 4.0 if xy_resolution is None else _positive(xy_resolution, "xy_resolution")
-    step_m = _positive(step_m, "step_m")
-    step_deg = _positive(step_deg, "step_deg")
-    if int(heading_bins) != heading_bins or heading_bins < 4:
-        raise InputError(f"heading_bins must be an integer >= 4, got {heading_bins!r}",
-                         where="heading_bins")
-    heading_bins = int(heading_bins)
-    if int(max_expansions) != max_expansions or max_expansions < 1:
-        raise InputError(f"max_expansions must be a positive integer, got {max_expansions!r}",
-                         where="max_expansions")
-    if time_limit_s is not None:
-        time_limit_s = _positive(time_limit_s, "time_limit_s")
-    try:
-        tol_xy, tol_heading = (float(v) for v in goal_tolerance)
-    except (TypeError, ValueError):
-        raise InputError(f"goal_tolerance must be (metres, radians), got {goal_tolerance!r}",
-                         where="goal_tolerance") from None
-    if not (tol_xy >= 0 and tol_heading >= 0):
-        raise InputError(f"goal_tolerance must not be negative, got {goal_tolerance!r}",
-                         where="goal_tolerance")
-    if reverse_cost_factor < 1.0:
-        raise InputError(f"reverse_cost_factor must be >= 1, got {reverse_cost_factor!r}",
-                         where="reverse_cost_factor")
-    change_cost = 2.0 * radius if direction_change_cost_m is None else float(direction_change_cost_m)
-    if not (change_cost >= 0):
-        raise InputError(f"direction_change_cost_m must be >= 0, got {direction_change_cost_m!r}",
-                         where="direction_change_cost_m")
-    for name, pose in (("start", start_pose), ("goal", goal_pose)):
-        if not (box[0] <= pose[0] <= box[2] and box[1] <= pose[1] <= box[3]):
-            raise InputError(f"pose ({pose[0]:.3f}, {pose[1]:.3f}) m lies outside the search "
-                             f"bounds {box}", where=name)
-
-    check = _Checker(is_free, box)
-
-    def result(status, segments=(), expansions=0, reason="", cost=math.inf):
-        return CarPlanResult(status, list(segments), expansions, reason, cost,
-                             time.perf_counter() - t0)
-
-    if not check(np.asarray([start_pose]))[0]:
-        return result(NOT_FOUND, reason="the start pose is not free")
-    if not check(np.asarray([goal_pose]))[0]:
-        return result(NOT_FOUND, reason="the goal pose is not free")
-
-    # Heuristic pieces
-    nh_length = reeds_shepp_length if reverse else dubins_length
-    words_of = reeds_shepp_words if reverse else dubins_words
-    if heuristic_grid is None:
-        h2d = None
-    elif isinstance(heuristic_grid, OccupancyGrid):
-        h2d = grid_heuristic(heuristic_grid, goal_pose[:2])
-    elif callable(heuristic_grid):
-        h2d = heuristic_grid
+    s = _settings(start, goal, min_turn_radius, reverse, bounds, goal_tolerance, xy_resolution,
+                  heading_bins, max_expansions, time_limit_s, step_m, step_deg,
+                  reverse_cost_factor, direction_change_cost_m, analytic_tries)
+    h2d = _two_d_heuristic(heuristic_grid, s.goal[:2])
+    check = _Checker(is_free, s.bounds)
+    if not check(np.asarray([s.start]))[0]:
+        outcome = (NOT_FOUND, [], 0, "the start pose is not free", math.inf)
+    elif not check(np.asarray([s.goal]))[0]:
+        outcome = (NOT_FOUND, [], 0, "the goal pose is not free", math.inf)
     else:
-        raise InputError("heuristic_grid must be an OccupancyGrid or a function of (N, 2) "
-                         "positions", where="heuristic_grid")
-
-    def heuristic(poses: np.ndarray) -> np.ndarray:
-        h = np.asarray(nh_length(poses, goal_pose, radius), dtype=float).reshape(-1)
-        if h2d is not None:
-            h = np.maximum(h, np.asarray(h2d(poses[:, :2]), dtype=float).reshape(-1))
-        return h
-
-    # Motion primitives long enough to leave the cell: even on an arc the chord
-    # (length * sin(L/2R) / (L/2R)) exceeds the cell diagonal.
-    diagonal = math.sqrt(2.0) * res
-    prim_length = 1.05 * diagonal / float(np.sinc(diagonal / (2.0 * math.pi * radius)))
-    prims = _primitives(prim_length, radius, reverse, step_m, step_deg)
-    local = np.concatenate([p.samples for p in prims])
-    cuts = np.cumsum([0] + [len(p.samples) for p in prims])[:-1]
-    ends = np.stack([p.end for p in prims])
-    bin_width = 2.0 * math.pi / heading_bins
-
-    def cell(pose) -> tuple[int, int, int]:
-        return (round((pose[0] - box[0]) / res), round((pose[1] - box[1]) / res),
-                round(float(wrap_angle(pose[2])) / bin_width) % heading_bins)
-
-    def at_goal(pose) -> bool:
-        return (math.hypot(pose[0] - goal_pose[0], pose[1] - goal_pose[1]) <= tol_xy
-                and abs(float(wrap_angle(pose[2] - goal_pose[2]))) <= tol_heading)
-
-    # Node store: pose, parent index, primitive index, cost, arriving direction
-    poses: list[tuple[float, float, float]] = [start_pose]
-    parents: list[int] = [-1]
-    via: list[int] = [-1]
-    costs: list[float] = [0.0]
-    signs: list[int] = [0]
-
-    def path_to(node: int) -> list[Segment]:
-        chain = []
-        while parents[node] >= 0:
-            chain.append(node)
-            node = parents[node]
-        segs = []
-        for n in reversed(chain):
-            p = prims[via[n]]
-            origin = poses[parents[n]]
-            segs.append(straight(origin, p.sign * prim_length) if p.steer == 0
-                        else arc(origin, p.sign * prim_length, p.steer, radius))
-        return segs
-
-    def analytic(node: int) -> tuple[list[Segment], float] | None:
-        words = words_of(poses[node], goal_pose, radius)
-        ranked = sorted(words, key=lambda w: _word_cost(w, radius, signs[node],
-                                                        reverse_cost_factor, change_cost))
-        for word in ranked[:analytic_tries]:
-            segs = word_segments(poses[node], word, radius)
-            pts = sample(segs, step_m, step_deg)
-            if len(pts) == 0 or check(pts).all():
-                return segs, _word_cost(word, radius, signs[node], reverse_cost_factor, change_cost)
-        return None
-
-    h0 = float(heuristic(np.asarray([start_pose]))[0])
-    if not math.isfinite(h0):
-        return result(NOT_FOUND, reason="the 2-D heuristic grid gives the start no route to the goal")
-    best_cost = {cell(start_pose): 0.0}
-    closed: set = set()
-    heap = [(h0, 0, 0, h0)]  # (f, tie, node, h)
-    tie = 1
-    expansions = 0
-    next_analytic = 0
-    reason = ("searched every reachable cell at {:.3g} m / {:.3g} deg without reaching the goal; "
-              "a finer resolution may still find a path").format(res, math.degrees(bin_width))
-    while heap:
-        _f, _t, node, h = heapq.heappop(heap)
-        key = cell(poses[node])
-        if key in closed or costs[node] > best_cost.get(key, math.inf) + 1e-12:
-            continue
-        closed.add(key)
-        expansions += 1
-        if at_goal(poses[node]):
-            segs = merge_segments(path_to(node))
-            return result(FOUND, segs, expansions, "reached the goal cell within tolerance",
-                          costs[node])
-        if expansions >= next_analytic:
-            found = analytic(node)
-            if found is not None:
-                tail, tail_cost = found
-                segs = merge_segments(path_to(node) + tail)
-                return result(FOUND, segs, expansions, "completed by an analytic path",
-                              costs[node] + tail_cost)
-            next_analytic = expansions + max(1, min(10, int(h / (2.0 * prim_length))))
-        if expansions >= max_expansions:
-            reason = f"stopped after {expansions} expansions (max_expansions)"
-            break
-        if time_limit_s is not None and expansions % 32 == 0 \
-                and time.perf_counter() - t0 > time_limit_s:
-            reason = f"stopped after {time.perf_counter() - t0:.1f} s (time_limit_s)"
-            break
-        pose = poses[node]
-        free = check(_transform(local, pose))
-        ok = np.logical_and.reduceat(free, cuts)
-        if not ok.any():
-            continue
-        child_poses = _transform(ends[ok], pose)
-        child_prims = np.flatnonzero(ok)
-        candidates = []
-        for child_pose, k in zip(child_poses, child_prims):
-            child_pose = (float(child_pose[0]), float(child_pose[1]), float(child_pose[2]))
-            child_key = cell(child_pose)
-            if child_key in closed:
-                continue
-            p = prims[k]
-            g = costs[node] + prim_length * (reverse_cost_factor if p.sign < 0 else 1.0)
-            if signs[node] and p.sign != signs[node]:
-                g += change_cost
-            if g < best_cost.get(child_key, math.inf) - 1e-12:
-                candidates.append((child_pose, int(k), g, child_key))
-        if not candidates:
-            continue
-        hs = heuristic(np.asarray([c[0] for c in candidates]))
-        for (child_pose, k, g, child_key), hc in zip(candidates, hs):
-            if not math.isfinite(hc):
-                continue
-            best_cost[child_key] = g
-            poses.append(child_pose)
-            parents.append(node)
-            via.append(k)
-            costs.append(g)
-            signs.append(prims[k].sign)
-            heapq.heappush(heap, (g + float(hc), tie, len(poses) - 1, float(hc)))
-            tie += 1
-    return result(NOT_FOUND, expansions=expansions, reason=reason)
+        outcome = _Search(s, check, h2d).run(t0)
+    status, segs, expansions, reason, cost = outcome
+    return CarPlanResult(status, merge_segments(segs), expansions, reason, cost,
+                         time.perf_counter() - t0, check.poses_checked)

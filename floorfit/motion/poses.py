@@ -21,6 +21,7 @@ __all__ = [
     "wrap_angle",
     "as_pose",
     "relative_pose",
+    "from_local",
     "pose_from_degrees",
     "pose_to_degrees",
 ]
@@ -66,6 +67,20 @@ def relative_pose(origin, target) -> np.ndarray:
     c, s = np.cos(origin[..., 2]), np.sin(origin[..., 2])
     return np.stack([c * dx + s * dy, -s * dx + c * dy,
                      wrap_angle(target[..., 2] - origin[..., 2])], axis=-1)
+
+
+def from_local(origin: Pose, local: np.ndarray) -> np.ndarray:
+    """Poses given in the frame of ``origin`` ((N, 3) array) expressed in the world frame.
+
+    The inverse of :func:`relative_pose` for one origin; headings are not wrapped.
+    """
+    x, y, h = origin
+    c, s = math.cos(h), math.sin(h)
+    out = np.empty_like(local, dtype=float)
+    out[:, 0] = x + c * local[:, 0] - s * local[:, 1]
+    out[:, 1] = y + s * local[:, 0] + c * local[:, 1]
+    out[:, 2] = h + local[:, 2]
+    return out
 
 
 def pose_from_degrees(pose_deg):

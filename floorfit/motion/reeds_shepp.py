@@ -16,7 +16,9 @@ candidate found is a drivable path to the goal, and the answer is the shortest.
 
 All functions here take poses (x m, y m, heading rad); lengths are in metres.
 The closed forms below were derived by chaining the turning-circle centres
-(see docs/motion.md) and agree with the paper's formulas 8.1 to 8.11.
+(see docs/motion.md); the formula numbers in the docstrings refer to the paper's
+section 8 (numbering from memory). Lengths agree with OMPL and rsplan to 1e-14 m
+(tests/test_motion_curves.py).
 """
 
 from __future__ import annotations
@@ -170,7 +172,7 @@ _PHI_SIGN = _FLIP_SIGN * _REFLECT_SIGN
 
 def _variant_words(letters: str, count: int) -> list[str]:
     words = []
-    for b, f, r in _VARIANTS[:count]:
+    for b, _f, r in _VARIANTS[:count]:
         word = letters.translate(_SWAP) if r else letters
         words.append(word[::-1] if b else word)
     return words

@@ -9,9 +9,12 @@ collisions; a differential base cannot follow them directly when they slide side
 :func:`rotate_and_drive` turns such a path into rotations in place and straight
 drives along the current heading:
 
-1. From the current waypoint it looks for the farthest later waypoint that it can
-   reach by one rotation and one straight drive, forward or (when ``reverse``)
-   backward, whichever needs the smaller rotation first. A hop is accepted only if
+1. From the current waypoint it drives without rotating to the farthest later
+   waypoint on its heading line, if any; otherwise it looks for the farthest
+   later waypoint that it can reach by one rotation and one straight drive,
+   forward or (when ``reverse``) backward, trying the option with the smaller
+   rotations (before the drive and after it, to the waypoint's heading) first.
+   A hop is accepted only if
    at its end the vehicle could also turn to the waypoint's own heading, so the
    fallback below is always available.
 2. Where no hop works, it turns to the waypoint's heading and follows the holonomic
@@ -36,6 +39,7 @@ from typing import Callable
 import numpy as np
 
 from floorfit.errors import InputError
+from floorfit.motion._checks import positive_number, whole_number
 from floorfit.motion.poses import wrap_angle
 from floorfit.motion.sampling import sample
 from floorfit.motion.segments import Segment, merge_segments, rotate, straight
@@ -74,11 +78,13 @@ class _Motion:
                              "expected one bool per pose", where="is_free")
         return bool(answer.all())
 
-    def turn_drive(self, pose, target_xy, reverse: bool, *, long_way: bool = True):
-        """Rotate towards ``target_xy`` (or away from it, driving backwards) and drive there.
+    def turn_drive(self, pose, target, reverse: bool, *, long_way: bool = True):
+        """Rotate towards ``target`` (or away from it, driving backwards) and drive there.
 
-        Returns free segments or None; tries the smaller rotation first.
+        Returns free segments or None. Tries the options in order of the rotation
+        needed before the drive plus the one from the drive's heading to the target's.
         """
+        target_xy, target_heading = target[:2], target[2]
         dx, dy = target_xy[0] - pose[0], target_xy[1] - pose[1]
         dist = math.hypot(dx, dy)
         towards = math.atan2(dy, dx)
@@ -86,10 +92,11 @@ class _Motion:
         tries = []
         for heading, drive in options:
             short = float(wrap_angle(heading - pose[2]))
-            tries.append((abs(short), short, drive))
+            after = abs(float(wrap_angle(target_heading - heading)))
+            tries.append((abs(short) + after, short, drive))
             if long_way and short != 0.0:
-                tries.append((2 * math.pi - abs(short), short - math.copysign(2 * math.pi, short),
-                              drive))
+                tries.append((2 * math.pi - abs(short) + after,
+                              short - math.copysign(2 * math.pi, short), drive))
         for _cost, turn, drive in sorted(tries, key=lambda t: t[0]):
             spin = rotate(pose, turn)
             segs = [spin, straight(spin.end, drive)]
@@ -133,6 +140,20 @@ def _lateral_shift(start, target, turn_total: float, reverse: bool) -> list[Segm
     segs.append(straight(segs[-1].end, along))
     segs.append(rotate(segs[-1].end, turn_total - half))
     return segs
+
+
+def _on_heading_line(pose, target, reverse: bool) -> bool:
+    """Whether ``target`` lies ahead of ``pose`` on its heading (or behind, with reverse)."""
+    dx, dy = target[0] - pose[0], target[1] - pose[1]
+    c, s = math.cos(pose[2]), math.sin(pose[2])
+    along, side = c * dx + s * dy, -s * dx + c * dy
+    return abs(side) <= _SAME_POINT_M * (1.0 + abs(along)) and (along > 0 or reverse)
+
+
+def _drive_only(pose, target) -> list[Segment]:
+    """Straight drive along the heading to the foot of ``target`` on the heading line."""
+    c, s = math.cos(pose[2]), math.sin(pose[2])
+    return [straight(pose, c * (target[0] - pose[0]) + s * (target[1] - pose[1]))]
 
 
 def _follow(motion: _Motion, a, b, reverse: bool, depth: int) -> list[Segment] | None:
@@ -207,8 +228,11 @@ def rotate_and_drive(
                          where="waypoints")
     if not np.all(np.isfinite(pts)):
         raise InputError("waypoints must be finite numbers", where="waypoints")
-    if not (step_m > 0 and step_deg > 0):
-        raise InputError("sampling steps must be positive", where="step_m/step_deg")
+    step_m = positive_number(step_m, "step_m")
+    step_deg = positive_number(step_deg, "step_deg")
+    max_lookahead = whole_number(max_lookahead, "max_lookahead", minimum=1)
+    max_depth = whole_number(max_depth, "max_depth", minimum=0)
+    max_checks = whole_number(max_checks, "max_checks", minimum=1)
     # heading steps taken the shorter way round
     pts[1:, 2] = pts[0, 2] + np.cumsum(wrap_angle(np.diff(pts[:, 2])))
     motion = _Motion(is_free, step_m, step_deg, max_checks)
@@ -228,10 +252,18 @@ def _plan(motion: _Motion, pts: np.ndarray, reverse: bool, lookahead: int,
     i = 0
     while i < last:
         hop_end = None
-        for j in range(min(last, i + lookahead), i, -1):
-            if math.hypot(pts[j, 0] - pose[0], pts[j, 1] - pose[1]) <= _SAME_POINT_M:
-                continue
-            hop = motion.turn_drive(pose, pts[j], reverse)
+        ahead = [j for j in range(min(last, i + lookahead), i, -1)
+                 if math.hypot(pts[j, 0] - pose[0], pts[j, 1] - pose[1]) > _SAME_POINT_M]
+        # hops that need no rotation first (waypoints on the current heading line),
+        # then the farthest hop with a rotation
+        in_line = [j for j in ahead if _on_heading_line(pose, pts[j], reverse)]
+        others = [j for j in ahead if j not in in_line]
+        for j, turn in [(j, False) for j in in_line] + [(j, True) for j in others]:
+            if turn:
+                hop = motion.turn_drive(pose, pts[j], reverse)
+            else:
+                hop = _drive_only(pose, pts[j])
+                hop = hop if motion.free(hop) else None
             if hop is None:
                 continue
             sync = motion.turn_to(hop[-1].end, pts[j, 2])

@@ -25,19 +25,15 @@ from typing import Sequence
 
 import numpy as np
 
-from floorfit.errors import InputError
+from floorfit.motion._checks import positive_number
 from floorfit.motion.segments import Segment, poses_along
 
 __all__ = ["sample", "sample_counts", "chord_deviation", "motion_check_margin"]
 
 
 def _check_steps(step_m: float, step_deg: float) -> None:
-    if not (step_m > 0 and math.isfinite(step_m)):
-        raise InputError(f"sampling step must be a positive number of metres, got {step_m!r}",
-                         where="step_m")
-    if not (step_deg > 0 and math.isfinite(step_deg)):
-        raise InputError(f"sampling step must be a positive number of degrees, got {step_deg!r}",
-                         where="step_deg")
+    positive_number(step_m, "step_m")
+    positive_number(step_deg, "step_deg")
 
 
 def sample_counts(segments: Sequence[Segment], step_m: float, step_deg: float) -> list[int]:

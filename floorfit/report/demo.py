@@ -90,7 +90,7 @@ def demo_result(origin: tuple[float, float] = (250.0, 80.0), *, units: str = "mm
     stations = [Station("Dock 1", ox + 3.0, oy + 15.5, 0.0), Station("Line A", ox + 22.0, oy + 4.2),
                 Station("Store", ox + 26.0, oy + 15.5, 90.0), Station("QA lab", ox + 4.0, oy + 3.0)]
     names = [s.name for s in stations]
-    reachable = {a: {b: not ("QA lab" in (a, b)) for b in names if b != a} for a in names}
+    reachable = {a: {b: "QA lab" not in (a, b) for b in names if b != a} for a in names}
     cuts = {(a, b): ["F-1"] for a in names for b in names if a != b and "QA lab" in (a, b)}
     findings = [
         Finding("tight", ox + 22.0, oy + 4.2, "Aisle between racks R1 and R2: 0.28 m each side, "

@@ -146,7 +146,7 @@ def _view_box(result: Any) -> tuple[float, float, float, float]:
     """Drawing-frame box (m) holding obstacles, stations and findings, with a small pad."""
     xs, ys = [], []
     x0, y0, x1, y1 = result.plan.extent_m
-    if result.plan.obstacle_count:
+    if len(result.plan.walls) + len(result.plan.solids):
         xs += [x0, x1]
         ys += [y0, y1]
     xs += [s.x for s in result.stations] + [f.x for f in result.findings]
@@ -202,6 +202,15 @@ def _scale_bar(ax: Any, box: tuple[float, float, float, float]) -> None:
     ax.add_artist(bar)
 
 
+def _clip_to_drawing(ax: Any, plan: Any, artist: Any) -> None:
+    """Show ``artist`` only inside the drawing's extent: free space the engine found outside
+    the outermost obstacles (around the building) is not floor the report should colour."""
+    if len(plan.walls) + len(plan.solids) == 0:
+        return
+    x0, y0, x1, y1 = plan.extent_m
+    artist.set_clip_path(Rectangle((x0, y0), x1 - x0, y1 - y0, transform=ax.transData))
+
+
 def _draw_obstacles(ax: Any, plan: Any, *, faint: bool = False) -> None:
     shift = _origin(plan)
     path = _polygon_path(plan.solids, shift)
@@ -229,7 +238,8 @@ def _draw_labels(ax: Any, plan: Any) -> int:
     shown = plan.labels[:_MAX_LABELS]
     for lab in shown:
         ax.text(lab.x + ox, lab.y + oy, plain_text(lab.text), fontsize=6.5, color=_LABEL,
-                ha="center", va="center", style="italic", zorder=5, clip_on=True)
+                ha="center", va="center", style="italic", zorder=5, clip_on=True,
+                parse_math=False)
     return len(plan.labels) - len(shown)
 
 
@@ -243,7 +253,7 @@ def _draw_stations(ax: Any, stations: Iterable[Any], arrow_len: float) -> None:
                         xytext=(s.x, s.y), zorder=9,
                         arrowprops={"arrowstyle": "-|>", "color": _STATION_EDGE, "lw": 1.2})
         ax.annotate(plain_text(s.name), (s.x, s.y), xytext=(7, 7), textcoords="offset points",
-                    fontsize=7.5, fontweight="bold", color="#111111", zorder=10,
+                    parse_math=False, fontsize=7.5, fontweight="bold", color="#111111", zorder=10,
                     bbox={"boxstyle": "round,pad=0.25", "facecolor": "#ffffff",
                           "edgecolor": "#111111", "linewidth": 0.6, "alpha": 0.9})
 
@@ -329,7 +339,7 @@ def plan_figure(result: Any) -> tuple[Figure, int]:
         style = kind_style(kind)
         handles.append(Line2D([], [], marker=style.marker, markersize=9, linestyle="none",
                               markerfacecolor=style.colour, markeredgecolor="#ffffff",
-                              label=f"finding: {style.title.lower()}"))
+                              label="finding: " + style.title.lower().replace("$", r"\$")))
     _legend_below(ax, handles)
     return fig, hidden
 
@@ -349,7 +359,8 @@ def turnability_figure(result: Any) -> Figure | None:
     for key, _text, colour in present:
         path = _polygon_path([result.turnability[key]], shift)
         if path is not None:
-            ax.add_patch(PathPatch(path, facecolor=colour, edgecolor="none", zorder=1))
+            patch = ax.add_patch(PathPatch(path, facecolor=colour, edgecolor="none", zorder=1))
+            _clip_to_drawing(ax, result.plan, patch)
     _draw_obstacles(ax, result.plan, faint=True)
     _draw_stations(ax, result.stations, 0.05 * (box[2] - box[0]))
     _scale_bar(ax, box)
@@ -380,6 +391,7 @@ def heading_count_figure(result: Any) -> Figure | None:
     image = ax.imshow(shown, origin="lower", extent=(x0, x0 + nx * cell, y0, y0 + ny * cell),
                       cmap=_COUNT_CMAP, vmin=0.5, vmax=max(n, 1) + 0.5, interpolation="nearest",
                       zorder=1)
+    _clip_to_drawing(ax, result.plan, image)
     _draw_obstacles(ax, result.plan, faint=True)
     _draw_stations(ax, result.stations, 0.05 * (box[2] - box[0]))
     _scale_bar(ax, box)

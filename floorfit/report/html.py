@@ -43,16 +43,22 @@ def _fmt(value: Any) -> str:
         return f"{value:.6g}"
     if isinstance(value, dict):
         return "; ".join(f"{k}: {_fmt(v)}" for k, v in sorted(value.items(), key=lambda kv: str(kv[0])))
-    if hasattr(value, "tolist") and not isinstance(value, str):
-        value = value.tolist()
+    if hasattr(value, "tolist") and not isinstance(value, str):   # numpy scalars and arrays
+        return _fmt(value.tolist())
     if isinstance(value, (list, tuple, set, frozenset)):
         items = sorted(value, key=str) if isinstance(value, (set, frozenset)) else list(value)
         return ", ".join(_fmt(v) for v in items)
     return str(value)
 
 
-def _m(value: float | None) -> str:
-    return "—" if value is None else f"{value:.3f} m"
+def _m(value: Any) -> str:
+    """A length in metres with three decimals; text other than a number is shown as given."""
+    if value is None:
+        return "—"
+    try:
+        return f"{float(value):.3f} m"
+    except (TypeError, ValueError):
+        return str(value)
 
 
 _CSS = """
@@ -83,7 +89,8 @@ p { margin: .4rem 0 .7rem; }
 .verdict.pass .word { color: var(--ok); }
 .verdict ul { margin: .3rem 0 0; padding-left: 1.2rem; }
 .chips { display: flex; flex-wrap: wrap; gap: .5rem; margin: .6rem 0; }
-.chip { background: #fff; border: 1px solid var(--rule); border-radius: 999px; padding: .15rem .7rem; font-size: .9rem; }
+.chip { background: #fff; border: 1px solid var(--rule); border-radius: 999px;
+  padding: .15rem .7rem; font-size: .9rem; }
 .chip .n { font-weight: 700; }
 nav.toc { margin-top: 1rem; font-size: .9rem; display: flex; flex-wrap: wrap; gap: .2rem 1.1rem; }
 nav.toc a { color: var(--band); white-space: nowrap; }
@@ -103,32 +110,40 @@ figcaption { font-size: .85rem; color: var(--muted); margin-top: .35rem; }
 table.reach { width: auto; min-width: 50%; }
 table.reach td, table.reach th { text-align: center; min-width: 4.5rem; }
 td.id { white-space: nowrap; }
+.scroll { overflow-x: auto; }
 table.reach th.row { text-align: left; }
 table.reach td.yes { background: var(--ok-bg); color: var(--ok); font-weight: 700; }
 table.reach td.no { background: var(--bad-bg); color: var(--bad); font-weight: 700; }
 table.reach td.self { color: #aab; }
 table.reach td.unknown { background: #f3f3f3; color: #666; }
 .legend-line { font-size: .85rem; color: var(--muted); }
-.swatch { display: inline-block; width: 1em; height: 1em; border: 1px solid #999; vertical-align: -0.15em; margin-right: .3em; }
+.swatch { display: inline-block; width: 1em; height: 1em; border: 1px solid #999;
+  vertical-align: -0.15em; margin-right: .3em; }
 dl.defs dt { font-weight: 700; margin-top: .6rem; }
 dl.defs dd { margin: .15rem 0 0 0; }
 .caution { border: 1px solid #e0c48a; background: #fff8e8; border-radius: 4px; padding: .6rem 1rem; }
 .caution li { margin: .3rem 0; }
-footer { margin: 2rem 2rem 0; padding-top: .6rem; border-top: 1px solid var(--rule); font-size: .8rem; color: var(--muted); }
-code { font-size: .9em; background: var(--soft); padding: 0 .2em; border-radius: 3px; overflow-wrap: anywhere; }
+footer { margin: 2rem 2rem 0; padding-top: .6rem; border-top: 1px solid var(--rule);
+  font-size: .8rem; color: var(--muted); }
+code { font-size: .9em; background: var(--soft); padding: 0 .2em; border-radius: 3px;
+  overflow-wrap: anywhere; }
 @media (max-width: 760px) { .two { grid-template-columns: 1fr; } main { padding: 0 1rem; } }
 @media print {
   html { font-size: 10.5pt; }
   body { background: #fff; }
   .page { max-width: none; padding: 0; }
-  header.top, .verdict, .badge, table.reach td, .swatch, th { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+  header.top, .verdict, .badge, table.reach td, .swatch, th {
+    -webkit-print-color-adjust: exact; print-color-adjust: exact; }
   header.top { padding: .8rem 1rem; }
   main { padding: 0; }
   nav.toc { display: none; }
   section { break-inside: auto; }
   h2, h3 { break-after: avoid; }
   figure { break-inside: avoid; }
-  figure img { max-height: 235mm; width: auto; max-width: 100%; }
+  figure img { max-height: 185mm; width: auto; max-width: 100%; }
+  figure.wide img { width: auto; }
+  .keep { break-inside: avoid; }
+  .scroll { overflow: visible; }
   tr { break-inside: avoid; }
   thead { display: table-header-group; }
   a { color: inherit; text-decoration: none; }
@@ -260,11 +275,16 @@ def _settings(result: Any, vehicle_img: FigureImage | None) -> Section:
     return "settings", "Settings and tolerance", inner
 
 
+_KEEP = '<div class="keep">'
+
+
 def _figure_body(intro: str, images: Sequence[FigureImage | None], missing: str,
                  extra: str = "") -> str:
-    shown = [img for img in images if img is not None]
-    body = "".join(_figure(img) for img in shown) or f'<p class="muted">{_e(missing)}</p>'
-    return f"<p>{intro}</p>{extra}{body}"
+    """Intro, legend and first figure in one block that print keeps on one page (with the
+    section heading, see :func:`_numbered`); further figures follow."""
+    shown = [_figure(img) for img in images if img is not None]
+    first = shown[0] if shown else f'<p class="muted">{_e(missing)}</p>'
+    return f"{_KEEP}<p>{intro}</p>{extra}{first}</div>{''.join(shown[1:])}"
 
 
 def _turn_legend() -> str:
@@ -280,7 +300,7 @@ def _numbers_cell(f: Any) -> str:
     if f.clearance_m is not None or f.required_clearance_m is not None:
         parts.append(f"clearance {_m(f.clearance_m)}, asked {_m(f.required_clearance_m)}")
     if f.heading_ranges_deg:
-        ranges = ", ".join(f"{a:g}°–{b:g}°" for a, b in f.heading_ranges_deg)
+        ranges = ", ".join(f"{a:g}° to {b:g}°" for a, b in f.heading_ranges_deg)
         parts.append(f"headings {ranges}")
     return "<br>".join(_e(p) for p in parts) or "—"
 
@@ -290,7 +310,8 @@ def _findings_table(result: Any) -> Section:
     for number, f in numbered_findings(result.findings):
         style = kind_style(f.kind)
         rows.append(
-            f'<tr id="finding-{number}"><td>{_badge(number, f.kind)}</td><td class="id">{_e(f.id) or "—"}</td>'
+            f'<tr id="finding-{number}"><td>{_badge(number, f.kind)}</td>'
+            f'<td class="id">{_e(f.id) or "—"}</td>'
             f'<td class="kind">{_e(style.title)}<br><span class="muted">cause: {_e(f.cause)}</span></td>'
             f"<td>{_e(f.label) if f.label else '—'}</td>"
             f'<td class="num">{f.x:.3f}</td><td class="num">{f.y:.3f}</td>'
@@ -300,9 +321,10 @@ def _findings_table(result: Any) -> Section:
         body = '<p class="muted">No findings: nothing blocked, tight or without a turn.</p>'
     else:
         body = (
-            '<table class="findings"><thead><tr><th>#</th><th>id</th><th>kind</th><th>where</th>'
+            '<div class="scroll"><table class="findings"><thead><tr><th>#</th><th>id</th><th>kind</th>'
+            '<th>where</th>'
             '<th class="num">x (m)</th><th class="num">y (m)</th><th>numbers</th><th>what</th>'
-            "<th>stations cut off</th></tr></thead><tbody>" + "".join(rows) + "</tbody></table>")
+            "<th>stations cut off</th></tr></thead><tbody>" + "".join(rows) + "</tbody></table></div>")
     intro = ("<p>Numbered as on the plan. Positions in the drawing frame, metres. "
              "&ldquo;Where&rdquo; is the nearest label in the drawing.</p>")
     return "findings", "Findings", intro + body
@@ -334,8 +356,8 @@ def _reachability(result: Any, numbers: dict[str, int]) -> Section:
     inner = (
         "<p>Can the vehicle drive from the station in the row to the station in the column? "
         "✓ yes, ✗ no, ? not checked. The verdict box names the findings that cut each ✗.</p>"
-        f'<table class="reach"><thead><tr><th class="row">from \\ to</th>{head}</tr></thead>'
-        f"<tbody>{''.join(rows)}</tbody></table>")
+        f'<div class="scroll"><table class="reach"><thead><tr><th class="row">from \\ to</th>{head}'
+        f"</tr></thead><tbody>{''.join(rows)}</tbody></table></div>")
     return "reach", "Reachability", inner
 
 
@@ -371,7 +393,12 @@ def _cautions() -> Section:
 def _numbered(sections: Iterable[Section | None]) -> tuple[str, list[tuple[str, str]]]:
     html_parts, toc = [], []
     for number, (key, title, inner) in enumerate((s for s in sections if s), start=1):
-        html_parts.append(f'<section id="{key}"><h2>{number}. {_e(title)}</h2>{inner}</section>')
+        heading = f"<h2>{number}. {_e(title)}</h2>"
+        if inner.startswith(_KEEP):          # heading joins the block kept on one page
+            body = _KEEP + heading + inner[len(_KEEP):]
+        else:
+            body = heading + inner
+        html_parts.append(f'<section id="{key}">{body}</section>')
         toc.append((key, title))
     return "".join(html_parts), toc
 

@@ -195,7 +195,7 @@ def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False
         No progress output on standard error.
     """
     out_dir = Path(out_dir)
-    chosen = _check_formats(formats, out_dir)
+    chosen = _check_formats((formats,) if isinstance(formats, str) else formats, out_dir)
     old_ours = _check_folder(out_dir, force)
     targets = {fmt: out_dir / OUTPUT_FILES[fmt] for fmt in chosen}
     _check_not_input(targets.values(), result.plan.source, out_dir)
@@ -215,7 +215,8 @@ def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False
         for fmt in order:
             temps[fmt] = _write_temp(out_dir, OUTPUT_FILES[fmt], contents[fmt])
         for fmt in order:
-            os.replace(temps.pop(fmt), targets[fmt])
+            os.replace(temps[fmt], targets[fmt])
+            del temps[fmt]
             placed.append(targets[fmt])
     except BaseException as exc:
         for tmp in temps.values():
