@@ -392,17 +392,28 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     counts = raster.counts
     turnability = {"heading_count": {"x0": raster.x0, "y0": raster.y0, "cell_m": map_cell,
                                      "counts": counts, "n_headings": len(slices)}}
+    outside = _exterior(counts > 0, raster, stations, A.st_local)
+    counts = np.where(outside, 0, counts)
+    turnability["heading_count"]["counts"] = counts
     fits = counts > 0
+    turnability["fits"] = _cells_to_geometry(fits, raster.x0, raster.y0, map_cell)
     turnability["rotates"] = _cells_to_geometry(counts == len(slices), raster.x0, raster.y0, map_cell) \
         if len(slices) > 1 else shapely.Polygon()
+    # the free space (reference point) at one representative heading, for the CAD overlay
+    rep_h = next((s.heading_deg for s in stations if s.heading_deg is not None), 0.0)
+    k_rep = slices.cells.index_of(rep_h)
+    rep = [c for c in slices.components[k_rep] if not c.intersects(slices.domain.exterior)
+           or any(c.covers(Point(A.st_local[s.name])) for s in stations)]
+    turnability["free_at_heading"] = {"heading_deg": float(slices.cells.headings[k_rep]),
+                                      "geometry": shapely.union_all(rep) if rep else shapely.Polygon()}
     if vehicle.mode in ("omni", "differential") and len(slices) > 1:
         centre, rho_min = turning_circle(vehicle.footprint)
         troom = turn_region(obstacles, slices.domain, rho_min + plan.curve_tolerance_m)
-        turnability["turns_around"] = troom
+        turnability["turns_around"] = troom.intersection(turnability["fits"].buffer(map_cell))
         tmask = fill_polygons(shapely.get_parts(troom), raster.x0, raster.y0, map_cell, *counts.shape[::-1])
         reach_d = float(np.hypot(*centre)) + 0.5 * vehicle.length_m + map_cell
         far = ndimage.distance_transform_edt(~tmask) * map_cell > reach_d if tmask.any() else np.ones_like(tmask)
-        noturn = fits & far & ~_exterior(fits, raster, stations, A.st_local)
+        noturn = fits & far
         lab, n = ndimage.label(noturn, structure=np.ones((3, 3), bool))
         min_cells = max(4, int(vehicle.footprint.area / map_cell ** 2))
         for L in range(1, n + 1):

@@ -32,6 +32,7 @@ LAYERS: dict[str, tuple[int, str]] = {
     "FF-STAN-SYMB": (7, "floorfit: station symbols (circle, cross, heading line)"),
     "FF-STAN-IDEN": (7, "floorfit: station names"),
     "FF-FREE-OTLN": (3, "floorfit: where the reference point can be at some heading"),
+    "FF-FREE-HDNG": (3, "floorfit: free space of the reference point at one representative heading"),
     "FF-TURN-OTLN": (4, "floorfit: where the vehicle can reverse its heading"),
     "FF-SPIN-OTLN": (5, "floorfit: where the vehicle can spin a full turn in place"),
     "FF-PATH-CNTR": (5, "floorfit: route centre lines (reference point path)"),
@@ -181,6 +182,10 @@ def overlay_dxf(result: Any) -> bytes:
         geom = result.turnability.get(key)
         if isinstance(geom, shapely.Geometry):
             _add_geometry(msp, geom, frame, layer, layer)
+
+    rep = result.turnability.get("free_at_heading")
+    if isinstance(rep, dict) and isinstance(rep.get("geometry"), shapely.Geometry):
+        _add_geometry(msp, rep["geometry"], frame, "FF-FREE-HDNG", "FF-FREE-HDNG")
 
     for route in list(getattr(result, "routes", None) or []):
         pts = np.asarray(route.get("path", np.empty((0, 3))), dtype=float).reshape(-1, 3)
