@@ -51,6 +51,9 @@ __all__ = ["run_check", "station_nodes", "MAP_MAX_CELLS"]
 
 #: The turnability map is sampled on at most this many cells (its cell size grows on big sites).
 MAP_MAX_CELLS = 400_000
+#: Headroom a person needs, metres: obstacles starting higher do not block people (common
+#: practice; door heights are about 2.03 m / 80 in, from memory).
+PERSON_HEADROOM_M = 2.0
 
 
 def _noop(_msg: str) -> None:
@@ -107,7 +110,14 @@ class _Analysis:
         self.progress = progress
         self.workers = workers
         self.heading_step = heading_step
-        self.index = ObstacleIndex(plan.walls, plan.solids)
+        wb, sb = plan.wall_heights[:, 0], plan.solid_heights[:, 0]
+        # floor-standing obstacles measure widths; overhead ones that the vehicle meets explain height blocks
+        self.index = ObstacleIndex(plan.walls[wb <= 0], plan.solids[sb <= 0])
+        h = vehicle.height_m if vehicle.height_m is not None else math.inf
+        ow, os_ = (wb > 0) & (wb < h), (sb > 0) & (sb < h)
+        self.overhead = list(plan.walls[ow]) + list(plan.solids[os_])
+        self.overhead_bottom = np.concatenate([wb[ow], sb[os_]])
+        self.overhead_tree = shapely.STRtree(self.overhead) if self.overhead else None
         self.st_local = {s.name: plan.to_local(s.x, s.y) for s in stations}
 
     # --- roadmap regions ----------------------------------------------------------
@@ -182,6 +192,13 @@ class _Analysis:
         events = join_events(field, pseeds, floor)
         return pcomps, comp_of, st_places, pseeds, events
 
+    def clear_height_near(self, x: float, y: float, radius: float) -> float | None:
+        """Lowest bottom (m) of overhead obstacles the vehicle meets within ``radius`` of (x, y), or None."""
+        if self.overhead_tree is None:
+            return None
+        idx = self.overhead_tree.query(Point(x, y).buffer(radius))
+        return float(self.overhead_bottom[idx].min()) if len(idx) else None
+
     def locate(self, slices, comps, seeds, field, ev, union_sides):
         """Local (x, y) of a join; for regions that overlap in the plane, a point of the overlap."""
         x, y = field.centre_of(ev.iy, ev.ix)
@@ -191,6 +208,11 @@ class _Analysis:
             if not inter.is_empty and inter.area > 0:
                 p = shapely.ops.nearest_points(inter, Point(x, y))[0]
                 return p.x, p.y, True
+            if ev.overlap:
+                # the floor between the sides was never narrow: the block is where the vehicle's
+                # regions come closest (an overhead obstacle, a corner)
+                pa, pb = shapely.ops.nearest_points(a_side, b_side)
+                return (pa.x + pb.x) / 2.0, (pa.y + pb.y) / 2.0, False
         return x, y, False
 
     def side_geometry(self, slices, comps, members, limit=240):
@@ -255,7 +277,9 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     bounds = (x0 - pad, y0 - pad, x1 + pad, y1 + pad)
     cell = choose_cell_size(bounds, 0.05)
     progress(f"clearance field ({cell * 100:.0f} cm cells)")
-    field = clearance_field(plan.walls, plan.solids, bounds, cell)
+    pw = plan.wall_heights[:, 0] < PERSON_HEADROOM_M
+    ps = plan.solid_heights[:, 0] < PERSON_HEADROOM_M
+    field = clearance_field(plan.walls[pw], plan.solids[ps], bounds, cell)
     person = site.person_width_m
     floor = max(person / 2.0 - 0.75 * cell, cell)
 
@@ -287,19 +311,29 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
         ga = A.side_geometry(slices, comps, sa)
         gb = A.side_geometry(slices, comps, sb)
         lx, ly, overlap = A.locate(slices, comps, seeds, field, ev, (ga, gb))
-        w, px, py, q1, q2 = narrowest_width_near(A.index, lx, ly, radius=max(3 * cell, 0.15))
-        if not overlap and w < person - 1e-6:
-            continue      # not a passage a person uses: the regions are not walkably connected here
-        if overlap:
+        if ev.overlap or overlap:
+            # no narrow floor between the sides (a turn or an overhead block): the floor there is
+            # at least 2 × the join level wide; measure it at the raster join cell
+            jx, jy = field.centre_of(ev.iy, ev.ix)
+            w, _, _, q1, q2 = narrowest_width_near(A.index, jx, jy, radius=max(3 * cell, 0.15))
             px, py = lx, ly
-            w, q1, q2 = A.index.width_at(px, py)
+        else:
+            w, px, py, q1, q2 = narrowest_width_near(A.index, lx, ly, radius=max(3 * cell, 0.15))
+            if w < person - 1e-6:
+                continue      # not a passage a person uses: the regions are not walkably connected here
         st_a = sorted({n for r in sa for n in region_stations.get(r, [])})
         st_b = sorted({n for r in sb for n in region_stations.get(r, [])})
         cut = st_b if len(st_b) <= len(st_a) else st_a
         cause = "width" if w < needed + slices.tolerance_m else "turn"
         dx, dy = plan.to_drawing(px, py)
         label = place_name(plan, px, py)
-        if cause == "width":
+        clear_h = A.clear_height_near(px, py, vehicle.radius_m + 0.5)
+        if clear_h is not None and cause == "turn":
+            cause = "height"
+            need_h = f"{vehicle.height_m:.2f} m" if vehicle.height_m is not None else \
+                "more (its height is not given, so it counts as unlimited)"
+            summary = f"clear height {clear_h:.2f} m, the vehicle needs {need_h} (clear width {w:.2f} m would be enough)"
+        elif cause == "width":
             summary = (f"clear width {w:.2f} m, the vehicle needs {needed:.2f} m (outline plus margin) to pass")
         else:
             summary = (f"clear width {w:.2f} m is enough to drive straight through ({needed:.2f} m), "
@@ -308,7 +342,9 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
             summary += f"; cuts off {', '.join(cut)}"
         geom = shapely.LineString([q1, q2]) if q1 is not None and q2 is not None and not np.allclose(q1, q2) else None
         f = Finding(kind="blocked", cause=cause, x=dx, y=dy, label=label, summary=summary,
-                    clear_width_m=round(w, 4), needed_width_m=round(needed, 4), cuts_off=cut, geometry=geom)
+                    clear_width_m=round(w, 4), needed_width_m=round(needed, 4), cuts_off=cut, geometry=geom,
+                    clear_height_m=None if cause != "height" else round(clear_h, 4),
+                    needed_height_m=None if cause != "height" else vehicle.height_m)
         findings.append(f)
         tree.add_edge(ev.a, ev.b, finding=f)
 

@@ -114,6 +114,7 @@ class JoinEvent:
     b: int
     iy: int
     ix: int
+    overlap: bool = False     # the two sides were never apart on the raster (e.g. an overhead block)
 
 
 def _levels(top: float, floor: float, cell: float) -> np.ndarray:
@@ -166,8 +167,9 @@ def join_events(field: ClearanceField, seeds: dict[int, np.ndarray], floor: floa
                 continue
             # where do they join? the new cell closest to both sides
             for other in roots[1:]:
-                iy, ix = _join_cell(lab, prev_lab, L, mask, dist, t, seeds, roots[0], other, find, regions)
-                events.append(JoinEvent(float(t), roots[0], other, iy, ix))
+                iy, ix, overlap = _join_cell(lab, prev_lab, L, mask, dist, t, seeds, roots[0], other, find,
+                                             regions)
+                events.append(JoinEvent(float(t), roots[0], other, iy, ix, overlap))
                 parent[find(other)] = find(roots[0])
         prev_lab = lab
         if len({find(r) for r in regions}) == 1:
@@ -208,7 +210,9 @@ def _join_cell(lab, prev_lab, L, mask, dist, t, seeds, ra, rb, find, regions):
     db = ndimage.distance_transform_edt(~side[rb][y0:y1, x0:x1]) if side[rb].any() else None
     if da is None or db is None or not new.any():
         iy, ix = np.unravel_index(np.argmax(np.where(comp, -dist, -np.inf)), dist.shape)
-        return int(iy), int(ix)
-    score = np.where(new, da + db, np.inf)
+        return int(iy), int(ix), overlap
+    total = da + db
+    # among the cells on the shortest way between the sides, the one midway between them
+    score = np.where(new & (total <= np.min(np.where(new, total, np.inf)) + 1.5), np.abs(da - db), np.inf)
     iy, ix = np.unravel_index(np.argmin(score), score.shape)
-    return int(iy + y0), int(ix + x0)
+    return int(iy + y0), int(ix + x0), overlap

@@ -53,6 +53,8 @@ class Finding:
     clear_width_m: float | None = None             # narrowest clear width found there
     needed_width_m: float | None = None            # width the vehicle needs there
     clearance_m: float | None = None               # clearance found (tight)
+    clear_height_m: float | None = None            # lowest overhead obstacle there (height blocks)
+    needed_height_m: float | None = None           # the vehicle's height
     required_clearance_m: float | None = None      # clearance the site asks for (tight)
     heading_ranges_deg: list[tuple[float, float]] = field(default_factory=list)
     extent: tuple[float, float, float, float] | None = None   # xmin, ymin, xmax, ymax
@@ -67,6 +69,7 @@ class Finding:
             "label": self.label, "summary": self.summary,
             "clear_width_m": _r(self.clear_width_m), "needed_width_m": _r(self.needed_width_m),
             "clearance_m": _r(self.clearance_m), "required_clearance_m": _r(self.required_clearance_m),
+            "clear_height_m": _r(self.clear_height_m), "needed_height_m": _r(self.needed_height_m),
             "heading_ranges_deg": [[round(a, 2), round(b, 2)] for a, b in self.heading_ranges_deg],
             "extent": None if self.extent is None else [round(v, 4) for v in self.extent],
             "cuts_off": list(self.cuts_off),

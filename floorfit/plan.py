@@ -17,7 +17,9 @@ linework can lie from the true curve, and the engine grows the vehicle by that m
 that a "fits" answer stays sound.
 
 Heights (bottom, top above the floor, metres) are kept per obstacle for height-aware
-checks; the default ``(0, inf)`` blocks every vehicle.
+checks; the default ``(0, inf)`` blocks every vehicle. An obstacle counts for a vehicle
+of height h only where the ranges overlap: bottom < h (and top > 0). The layer each
+obstacle came from is kept so that a site file can give layers height ranges.
 """
 
 from __future__ import annotations
@@ -111,6 +113,8 @@ class Plan:
     curve_tolerance_m: float = 0.0
     wall_heights: np.ndarray | None = None
     solid_heights: np.ndarray | None = None
+    wall_layers: np.ndarray | None = None
+    solid_layers: np.ndarray | None = None
     doors: list[Doorway] = field(default_factory=list)
     labels: list[Label] = field(default_factory=list)
     layers: list[LayerInfo] = field(default_factory=list)
@@ -126,6 +130,15 @@ class Plan:
             self.solid_heights = np.tile(np.array(FULL_HEIGHT), (len(self.solids), 1))
         self.wall_heights = np.asarray(self.wall_heights, dtype=float).reshape(-1, 2)
         self.solid_heights = np.asarray(self.solid_heights, dtype=float).reshape(-1, 2)
+        if self.wall_layers is None:
+            self.wall_layers = np.full(len(self.walls), "", dtype=object)
+        if self.solid_layers is None:
+            self.solid_layers = np.full(len(self.solids), "", dtype=object)
+        self.wall_layers = np.asarray(self.wall_layers, dtype=object).reshape(-1)
+        self.solid_layers = np.asarray(self.solid_layers, dtype=object).reshape(-1)
+        if len(self.wall_heights) != len(self.walls) or len(self.solid_heights) != len(self.solids) \
+                or len(self.wall_layers) != len(self.walls) or len(self.solid_layers) != len(self.solids):
+            raise ValueError("heights and layers must have one entry per obstacle")
 
     # -- construction -------------------------------------------------------------
     @classmethod
@@ -179,6 +192,16 @@ class Plan:
         x0, y0, x1, y1 = self.local_bounds()
         ox, oy = self.origin
         return [x0 + ox, y0 + oy, x1 + ox, y1 + oy]
+
+    def with_heights(self, wall_heights, solid_heights) -> "Plan":
+        """A copy of this plan with other obstacle height ranges ((N, 2) bottom, top, metres)."""
+        from dataclasses import replace
+        return replace(self, wall_heights=np.asarray(wall_heights, dtype=float),
+                       solid_heights=np.asarray(solid_heights, dtype=float))
+
+    def overhead_mask(self) -> tuple[np.ndarray, np.ndarray]:
+        """Which walls / solids start above the floor (bottom > 0): overhead obstacles."""
+        return self.wall_heights[:, 0] > 0, self.solid_heights[:, 0] > 0
 
     def edge_count(self) -> int:
         """Number of straight obstacle edges (linework segments plus polygon ring edges)."""

@@ -18,6 +18,10 @@ Site file (TOML, metres and degrees, drawing frame)::
 
     [layers]                        # layer-name pattern → role (see the import notes)
     "A-EQPM-RACK" = "solid"
+
+    [heights]                       # layer-name pattern → [bottom, top] above the floor, metres
+    "M-CONV-OVHD" = [2.1, 2.6]      # an overhead conveyor: only vehicles taller than 2.1 m meet it
+    "A-DOOR-HEAD" = [2.1, 1e9]      # a door header: 2.1 m and up
 """
 
 from __future__ import annotations
@@ -32,7 +36,7 @@ from .errors import InputError, SiteError
 from .findings import Station
 from .tomlcheck import check_keys, get_number, get_string, read_toml
 
-__all__ = ["Site", "read_site", "parse_station_flag", "CLEARANCE_REFERENCES", "DEFAULT_PERSON_WIDTH_M",
+__all__ = ["Site", "read_site", "parse_station_flag", "apply_height_ranges", "CLEARANCE_REFERENCES", "DEFAULT_PERSON_WIDTH_M",
            "DEFAULT_HEADING_TOLERANCE_DEG", "stations_from_drawing"]
 
 #: Width of floor a person needs to walk through, metres (common practice: shoulder width
@@ -49,7 +53,7 @@ CLEARANCE_REFERENCES = {
 }
 DEFAULT_CLEARANCE = "b56.5"
 
-_TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks")
+_TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights")
 _STATION = ("x", "y", "heading", "heading_tolerance")
 _CLEARANCE = ("required", "reference")
 _ANALYSIS = ("heading_step", "person_width")
@@ -68,6 +72,7 @@ class Site:
     clearance_reference: str = CLEARANCE_REFERENCES[DEFAULT_CLEARANCE][1]
     heading_step_deg: float | None = None
     person_width_m: float = DEFAULT_PERSON_WIDTH_M
+    heights: dict[str, tuple[float, float]] = field(default_factory=dict)
 
 
 def _check_name(name: str, path: str | None, where: str, error=SiteError) -> str:
@@ -113,6 +118,18 @@ def read_site(path: str | Path) -> Site:
     if req is not None:
         site.required_clearance_m = req
         site.clearance_reference = ref or "site file"
+    heights = data.get("heights", {})
+    if not isinstance(heights, dict):
+        raise SiteError("[heights] must be a table of layer pattern = [bottom, top]", src, "heights")
+    for pattern, rng in heights.items():
+        where = f"heights.{pattern}"
+        if (not isinstance(rng, list) or len(rng) != 2
+                or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in rng)):
+            raise SiteError(f"expected [bottom, top] in metres, got {rng!r}", src, where)
+        lo, hi = float(rng[0]), float(rng[1])
+        if not (math.isfinite(lo) and lo >= 0 and hi > lo):
+            raise SiteError(f"need 0 ≤ bottom < top (metres), got [{lo:g}, {hi:g}]", src, where)
+        site.heights[pattern] = (lo, hi)
     analysis = data.get("analysis", {})
     if not isinstance(analysis, dict):
         raise SiteError("[analysis] must be a table", src, "analysis")
@@ -122,6 +139,36 @@ def read_site(path: str | Path) -> Site:
     site.person_width_m = get_number(analysis, "person_width", src, "analysis.", SiteError,
                                      default=DEFAULT_PERSON_WIDTH_M, minimum=0.1, maximum=3.0)
     return site
+
+
+def apply_height_ranges(plan, ranges: dict[str, tuple[float, float]]):
+    """A copy of ``plan`` whose obstacles on layers matching a pattern get that height range.
+
+    Patterns are shell patterns, case-insensitive, matched against the obstacle's layer
+    (a bound-xref prefix stripped). Later patterns win. Heights read from the drawing
+    (elevation and thickness) are kept for layers no pattern matches.
+    """
+    import fnmatch
+
+    import numpy as np
+
+    if not ranges:
+        return plan
+    wh = plan.wall_heights.copy()
+    sh = plan.solid_heights.copy()
+
+    def strip(name: str) -> str:
+        name = str(name)
+        return name.rsplit("$0$", 1)[-1].rsplit("|", 1)[-1].lower()
+
+    for pattern, (lo, hi) in ranges.items():
+        pat = pattern.lower()
+        for heights, layers in ((wh, plan.wall_layers), (sh, plan.solid_layers)):
+            if not len(layers):
+                continue
+            hit = np.array([fnmatch.fnmatchcase(strip(n), pat) for n in layers], dtype=bool)
+            heights[hit] = (lo, hi)
+    return plan.with_heights(wh, sh)
 
 
 def parse_station_flag(text: str) -> Station:

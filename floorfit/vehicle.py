@@ -17,6 +17,14 @@ Rectangle shorthand instead of ``outline``: ``width``, ``length`` and
 ``reference_to_front`` (distance from the reference point forward to the front edge;
 default ``length / 2``, the centre) and ``reference_to_left`` (to the left edge; default
 ``width / 2``).
+
+``height`` (metres above the floor, in ``[footprint]``) makes the check height-aware: an
+obstacle whose bottom is at or above it (a table top, a conveyor, a door header) does
+not count. Without it the vehicle is treated as infinitely tall (every obstacle counts).
+
+Named outline states: a ``[loaded]`` table with any of the ``[footprint]`` keys describes
+the vehicle with its load (a longer outline, a larger margin, a taller mast); choose it
+with ``load_vehicle(path, state="loaded")`` (``--loaded`` on the command line).
 """
 
 from __future__ import annotations
@@ -58,6 +66,8 @@ class Vehicle:
     min_turn_radius_m: float | None = None
     fixed_heading_deg: float | None = None
     source: str | None = None
+    height_m: float | None = None
+    state: str = "default"
 
     @property
     def footprint(self) -> Polygon:
@@ -104,7 +114,7 @@ class Vehicle:
         return {"name": self.name, "mode": self.mode, "length_m": round(self.length_m, 4),
                 "width_m": round(self.width_m, 4), "margin_m": self.margin_m,
                 "radius_m": round(self.radius_m, 4), "reverse": self.reverse,
-                "min_turn_radius_m": self.min_turn_radius_m,
+                "min_turn_radius_m": self.min_turn_radius_m, "height_m": self.height_m, "state": self.state,
                 "outline": [[round(x, 6), round(y, 6)] for x, y in self.outline.exterior.coords[:-1]]}
 
 
@@ -166,22 +176,46 @@ def _validated_outline(points, source, where) -> Polygon:
     return poly
 
 
-_TOP_KEYS = ("name", "footprint", "motion")
-_FOOTPRINT_KEYS = ("outline", "width", "length", "reference_to_front", "reference_to_left", "margin")
+_TOP_KEYS = ("name", "footprint", "motion", "loaded")
+_FOOTPRINT_KEYS = ("outline", "width", "length", "reference_to_front", "reference_to_left", "margin", "height")
+STATES = ("default", "loaded")
 _MOTION_KEYS = ("mode", "reverse", "min_turn_radius", "heading")
 
 
-def load_vehicle(path: str | Path) -> Vehicle:
-    """Read and validate a vehicle TOML file. Raises :class:`VehicleError` (file, key, problem)."""
+def load_vehicle(path: str | Path, state: str = "default") -> Vehicle:
+    """Read and validate a vehicle TOML file. Raises :class:`VehicleError` (file, key, problem).
+
+    ``state="loaded"`` applies the file's ``[loaded]`` table over ``[footprint]``.
+    """
     src = str(path)
     data = read_toml(path, VehicleError)
     check_keys(data, _TOP_KEYS, src, "", VehicleError)
+    if state not in STATES:
+        raise VehicleError(f"unknown vehicle state '{state}' (one of {', '.join(STATES)})", src)
     name = get_string(data, "name", src, "", VehicleError, default=Path(src).stem)
     fp = data.get("footprint")
     if not isinstance(fp, dict):
         raise VehicleError("missing [footprint] table (outline, or width and length)", src, "footprint")
     check_keys(fp, _FOOTPRINT_KEYS, src, "footprint.", VehicleError)
-    margin = get_number(fp, "margin", src, "footprint.", VehicleError, default=0.0, minimum=0.0)
+    prefix = "footprint."
+    if "loaded" in data:
+        loaded = data["loaded"]
+        if not isinstance(loaded, dict):
+            raise VehicleError("[loaded] must be a table of footprint keys", src, "loaded")
+        check_keys(loaded, _FOOTPRINT_KEYS, src, "loaded.", VehicleError)
+        if state == "loaded":
+            rect_keys = ("width", "length", "reference_to_front", "reference_to_left")
+            if "outline" in loaded:          # a loaded outline replaces the rectangle
+                fp = {k: v for k, v in fp.items() if k not in rect_keys}
+            elif any(k in loaded for k in rect_keys):   # rectangle keys replace an outline
+                fp = {k: v for k, v in fp.items() if k != "outline"}
+            fp = {**fp, **loaded}
+            prefix = "loaded."
+            name = f"{name} (loaded)"
+    elif state == "loaded":
+        raise VehicleError("no [loaded] table in this vehicle file", src, "loaded")
+    margin = get_number(fp, "margin", src, prefix, VehicleError, default=0.0, minimum=0.0)
+    height = get_number(fp, "height", src, prefix, VehicleError, minimum=0.01, maximum=30.0)
     motion = data.get("motion", {})
     if not isinstance(motion, dict):
         raise VehicleError("[motion] must be a table", src, "motion")
@@ -193,20 +227,22 @@ def load_vehicle(path: str | Path) -> Vehicle:
     if mode == "car" and radius is None:
         raise VehicleError("a car-like vehicle needs min_turn_radius (metres, at the reference point)",
                            src, "motion.min_turn_radius")
-    extra = dict(reverse=reverse, min_turn_radius_m=radius, fixed_heading_deg=heading)
+    extra = dict(reverse=reverse, min_turn_radius_m=radius, fixed_heading_deg=heading, height_m=height,
+                 state=state)
     if "outline" in fp:
         for k in ("width", "length", "reference_to_front", "reference_to_left"):
             if k in fp:
                 raise VehicleError(f"give either outline or the rectangle (width, length), not both ('{k}')",
-                                   src, f"footprint.{k}")
-        pts = get_points(fp, "outline", src, "footprint.", VehicleError)
-        return vehicle_from_outline(pts, name=name, margin=margin, mode=mode, source=src, **extra)
-    width = get_number(fp, "width", src, "footprint.", VehicleError, required=True, minimum=0.0)
-    length = get_number(fp, "length", src, "footprint.", VehicleError, required=True, minimum=0.0)
-    front = get_number(fp, "reference_to_front", src, "footprint.", VehicleError)
-    left = get_number(fp, "reference_to_left", src, "footprint.", VehicleError)
+                                   src, f"{prefix}{k}")
+        pts = get_points(fp, "outline", src, prefix, VehicleError)
+        return vehicle_from_outline(pts, name=name, margin=margin, mode=mode, source=src,
+                                    where=f"{prefix}outline", **extra)
+    width = get_number(fp, "width", src, prefix, VehicleError, required=True, minimum=0.0)
+    length = get_number(fp, "length", src, prefix, VehicleError, required=True, minimum=0.0)
+    front = get_number(fp, "reference_to_front", src, prefix, VehicleError)
+    left = get_number(fp, "reference_to_left", src, prefix, VehicleError)
     front = length / 2 if front is None else front
     left = width / 2 if left is None else left
     pts = [(front, left - width), (front, left), (front - length, left), (front - length, left - width)]
     return vehicle_from_outline(pts, name=name, margin=margin, mode=mode, source=src,
-                                where="footprint", **extra)
+                                where=prefix.rstrip("."), **extra)

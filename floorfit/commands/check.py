@@ -21,6 +21,7 @@ def add_arguments(p) -> None:
     p.add_argument("--force", action="store_true", help="write into a folder that holds other files")
     p.add_argument("--heading-step", type=float, metavar="DEG", help="uniform heading step, degrees")
     p.add_argument("--workers", type=int, default=1, metavar="N", help="processes for the slices (default 1)")
+    p.add_argument("--loaded", action="store_true", help="use the vehicle file's [loaded] outline and height")
     p.add_argument("--quiet", action="store_true", help="no progress output")
 
 
@@ -34,15 +35,15 @@ def check_and_report(args):
     """Shared by ``check`` and ``demo``: read inputs, run the check, write the report."""
     from ..check import run_check
     from ..report import Progress, write_report
-    from ..site import Site, parse_station_flag, read_site, stations_from_drawing
+    from ..site import Site, apply_height_ranges, parse_station_flag, read_site, stations_from_drawing
     from ..vehicle import load_vehicle
 
     site = read_site(args.site) if args.site else Site()
     extra = [parse_station_flag(s) for s in args.station]
-    vehicle = load_vehicle(args.vehicle)
+    vehicle = load_vehicle(args.vehicle, state="loaded" if getattr(args, "loaded", False) else "default")
     progress = Progress(quiet=args.quiet)
     progress.stage("reading the drawing")
-    plan = load_plan_from_args(args, roles=site.roles)
+    plan = apply_height_ranges(load_plan_from_args(args, roles=site.roles), site.heights)
     stations = list(site.stations)
     if site.station_layer:
         stations += stations_from_drawing(args.plan, site.station_layer, plan.metres_per_unit)
