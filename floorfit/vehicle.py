@@ -152,12 +152,15 @@ def _validated_outline(points, source, where) -> Polygon:
     if not all(math.isfinite(v) for p in pts for v in p):
         raise VehicleError("outline has a non-finite coordinate", source, where)
     poly = Polygon(pts)
-    if poly.area <= 1e-9:
+    centred = np.asarray(pts) - np.mean(pts, axis=0)
+    if np.linalg.matrix_rank(centred, tol=1e-9) < 2:
         raise VehicleError("outline has zero area (points are collinear or repeated)", source, where)
     if not poly.is_valid:
         reason = shapely.is_valid_reason(poly)
         raise VehicleError(f"outline is not a simple polygon ({reason}); list the corners in order "
                            f"around the vehicle", source, where)
+    if poly.area <= 1e-9:
+        raise VehicleError("outline has zero area (points are collinear or repeated)", source, where)
     x0, y0, x1, y1 = poly.bounds
     size = max(x1 - x0, y1 - y0)
     lo, hi = PLAUSIBLE_SIZE_M
