@@ -44,6 +44,7 @@ from .plan import Plan
 from .raster import fill_polygons
 from .roadmap import build_roadmap
 from .site import Site
+from .sizelimits import check_problem_size
 from .turnability import heading_ranges, heading_raster, turn_region, turning_circle
 from .vehicle import Vehicle
 
@@ -266,6 +267,7 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     A = _Analysis(plan, vehicle, stations, site, progress, workers, step)
     extra = [s.heading_deg for s in stations if s.heading_deg is not None]
     cells = choose_headings(plan, vehicle, heading_step_deg=step, extra_headings=extra)
+    check_problem_size(plan, len(cells))
     obstacles = obstacles_for(plan, vehicle)
     progress(f"slices: {len(cells)} headings")
     slices = build_slices(plan, vehicle, cells=cells, workers=workers, obstacles=obstacles)
