@@ -48,7 +48,7 @@ from .sizelimits import check_problem_size
 from .turnability import heading_ranges, heading_raster, turn_region, turning_circle
 from .vehicle import Vehicle
 
-__all__ = ["run_check", "station_nodes", "MAP_MAX_CELLS"]
+__all__ = ["run_check", "station_nodes", "validate_stations", "MAP_MAX_CELLS", "PERSON_HEADROOM_M"]
 
 #: The turnability map is sampled on at most this many cells (its cell size grows on big sites).
 MAP_MAX_CELLS = 400_000
@@ -76,7 +76,7 @@ def station_nodes(slices: SliceSet, st_local: tuple[float, float], heading: floa
     return nodes
 
 
-def _validate_stations(plan: Plan, stations: list[Station], source: str | None) -> None:
+def validate_stations(plan: Plan, stations: list[Station], source: str | None) -> None:
     names = set()
     x0, y0, x1, y1 = plan.extent_m
     pad = max(x1 - x0, y1 - y0) * 0.5 + 5.0
@@ -258,11 +258,15 @@ def _sides_of_events(events, regions):
 
 def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Site | None = None,
               heading_step_deg: float | None = None, workers: int | None = 1,
-              progress: Callable[[str], None] | None = None) -> CheckResult:
-    """Check a site for a vehicle. Stations in the drawing frame (metres, degrees)."""
+              progress: Callable[[str], None] | None = None, quick: bool = False) -> CheckResult:
+    """Check a site for a vehicle. Stations in the drawing frame (metres, degrees).
+
+    ``quick=True`` finds reachability and blocked places only (no tight spots, no
+    turnability map, no no-turn stretches): what sizing needs to name the binding place.
+    """
     site = site or Site()
     progress = progress or _noop
-    _validate_stations(plan, stations, site.path)
+    validate_stations(plan, stations, site.path)
     step = heading_step_deg or site.heading_step_deg
     A = _Analysis(plan, vehicle, stations, site, progress, workers, step)
     extra = [s.heading_deg for s in stations if s.heading_deg is not None]
@@ -373,7 +377,7 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
 
     # tight: the vehicle outline grown by the required clearance
     req = site.required_clearance_m
-    if req > vehicle.margin_m + 1e-9 and stations:
+    if req > vehicle.margin_m + 1e-9 and stations and not quick:
         progress(f"clearance {req:.2f} m")
         grown = replace(vehicle, outline=vehicle.outline.buffer(req, join_style="mitre", mitre_limit=10.0),
                         margin_m=0.0, name=vehicle.name + " + clearance")
@@ -424,6 +428,9 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
                                     else None))
 
     # turnability map and no-turn stretches
+    if quick:
+        return _finish(findings, cuts, slices, vehicle, person, req, site, cell, None, needed, plan, stations,
+                       reach, {}, notes)
     progress("turnability map")
     map_cell = choose_cell_size(bounds, 0.1, MAP_MAX_CELLS)
     raster = heading_raster(slices, bounds, map_cell)
@@ -464,14 +471,20 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     else:
         notes.append(f"no-turn analysis is not done for motion mode '{vehicle.mode}'")
 
+    return _finish(findings, cuts, slices, vehicle, person, req, site, cell, map_cell, needed, plan, stations,
+                   reach, turnability, notes)
+
+
+def _finish(findings, cuts, slices, vehicle, person, req, site, cell, map_cell, needed, plan, stations, reach,
+            turnability, notes) -> CheckResult:
     findings = _rank(findings)
     cuts_ids = {k: [f.id for f in v] for k, v in cuts.items()}
     settings = slices.settings()
     settings.update({
         "vehicle_mode": vehicle.mode, "person_width_m": person, "required_clearance_m": req,
         "clearance_reference": site.clearance_reference, "raster_cell_m": round(cell, 4),
-        "map_cell_m": round(map_cell, 4), "needed_width_m": round(needed, 4),
-        "location_tolerance_m": round(3 * cell, 4),
+        "map_cell_m": None if map_cell is None else round(map_cell, 4), "needed_width_m": round(needed, 4),
+        "location_tolerance_m": round(3 * cell, 4), "vehicle_height_m": vehicle.height_m,
     })
     return CheckResult(plan=plan, vehicle=vehicle, settings=settings, stations=list(stations), reachable=reach,
                        findings=findings, cuts=cuts_ids, turnability=turnability, notes=notes)

@@ -61,7 +61,7 @@ def _m(value: Any) -> str:
         return str(value)
 
 
-_CSS = """
+CSS = """
 :root { --ink:#1b1f24; --muted:#5b6470; --rule:#d9dde2; --band:#1e3142; --paper:#ffffff;
   --soft:#f4f6f8; --ok:#13876a; --ok-bg:#e3f3ee; --bad:#c8441c; --bad-bg:#fbe9e3; }
 * { box-sizing: border-box; }
@@ -431,7 +431,7 @@ def render_html(result: Any, images: Iterable[FigureImage]) -> str:
         "<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
         f'<meta name="generator" content="floorfit {_e(__version__)}">',
-        f"<title>{_e(title)}</title><style>{_CSS}</style></head><body><div class=\"page\">",
+        f"<title>{_e(title)}</title><style>{CSS}</style></head><body><div class=\"page\">",
         _header(result), "<main>", _verdict(result, numbers),
         _toc([("verdict", "Verdict"), *toc]), body, "</main>",
         f"<footer>Made with floorfit {_e(__version__)}. A geometric check of a drawing, not a risk "

@@ -1,0 +1,62 @@
+"""``floorfit compare``: what a change to the layout did for a vehicle.
+
+Exit 0 when no station pair lost reachability, 1 when AFTER loses any pair, 2 bad input.
+"""
+
+from __future__ import annotations
+
+from ._common import parse_floats
+from .size import add_station_arguments, read_site_and_vehicle, stations_for
+
+NAME = "compare"
+HELP = ("compare two layouts for a vehicle: findings that appeared, disappeared or got worse, "
+        "station pairs lost or gained; writes an HTML page and JSON")
+ORDER = 25
+
+__all__ = ["NAME", "HELP", "ORDER", "add_arguments", "run"]
+
+
+def add_arguments(p) -> None:
+    p.add_argument("before", metavar="BEFORE.dxf", help="the layout as it is (DXF)")
+    p.add_argument("after", metavar="AFTER.dxf", help="the changed layout (DXF)")
+    p.add_argument("--units", metavar="U", help="drawing unit of both drawings, overriding the headers")
+    add_station_arguments(p)
+    p.add_argument("--size", choices=("width", "length", "scale"),
+                   help="also find the largest vehicle on both layouts, varying this dimension")
+    p.add_argument("--match-distance", type=float, default=1.0, metavar="M",
+                   help="findings of one kind this close in both layouts are the same place (default 1.0 m)")
+    p.add_argument("--out", default="floorfit-compare", metavar="DIR",
+                   help="output folder (default ./floorfit-compare)")
+    p.add_argument("--no-reports", action="store_true",
+                   help="do not write the full report of each layout into DIR/before and DIR/after")
+    p.add_argument("--force", action="store_true", help="write the reports into folders that hold other files")
+
+
+def run(args) -> int:
+    from ..compare import compare_layouts
+    from ..dxfimport import load_plan
+    from ..errors import InputError
+    from ..report import Progress
+    from ..report.compare_html import write_comparison
+
+    parse_floats(str(args.match_distance), 1, "--match-distance")
+    if not args.match_distance > 0:
+        raise InputError(f"--match-distance must be positive, got {args.match_distance:g}", None, "--match-distance")
+    site, vehicle, flags = read_site_and_vehicle(args)
+    progress = Progress(quiet=args.quiet)
+    progress.stage("reading the drawings")
+    before_plan = load_plan(args.before, units=args.units, roles=site.roles)
+    after_plan = load_plan(args.after, units=args.units, roles=site.roles)
+    before_st = stations_for(args.before, before_plan, site, flags)
+    after_st = stations_for(args.after, after_plan, site, flags)
+    comparison = compare_layouts(before_plan, after_plan, vehicle, before_st, after_st, site=site,
+                                 heading_step_deg=args.heading_step, size=args.size,
+                                 match_distance_m=args.match_distance, workers=args.workers,
+                                 progress=progress.stage)
+    progress.stage("writing the comparison")
+    written = write_comparison(comparison, args.out, reports=not args.no_reports, force=args.force,
+                               quiet=True)
+    progress.done()
+    print("\n".join(comparison.summary_lines()))
+    print(f"comparison: {written['html']}")
+    return 1 if comparison.after_worse else 0
