@@ -144,7 +144,8 @@ def door_size_evidence(prims: list[Prim], groups: dict[int, DoorGroup]) -> list[
                 _DOOR_LAYER_SPAN[0] <= p.arc.span <= _DOOR_LAYER_SPAN[1]:
             sizes.append(p.arc.radius)
     for members in _group_arcs(prims).values():
-        radii = [prims[i].arc.radius for i in members if prims[i].arc is not None and prims[i].arc.span >= math.radians(20)]
+        radii = [prims[i].arc.radius for i in members if prims[i].arc is not None and not prims[i].closed
+                 and math.radians(20) <= prims[i].arc.span <= math.radians(200)]
         if radii:
             sizes.append(max(radii))
     for i, _, _ in _swing_candidates(prims, _Vertices(prims, _straight_indices(prims))):
@@ -195,9 +196,11 @@ def find_doors(prims: list[Prim], flat: list[list[np.ndarray]], groups: dict[int
     # 1. door blocks
     for gid, members in _group_arcs(prims).items():
         group = groups.get(gid)
-        arcs = [i for i in members if prims[i].arc is not None and prims[i].arc.span >= math.radians(20)]
-        others = [i for i in members if i not in arcs]
-        remove.update(arcs)
+        curved = [i for i in members if prims[i].dxftype in ("ARC", "ELLIPSE") or prims[i].arc is not None]
+        arcs = [i for i in curved if prims[i].arc is not None and not prims[i].closed
+                and math.radians(20) <= prims[i].arc.span <= math.radians(200)]
+        others = [i for i in members if i not in curved]
+        remove.update(curved)          # swings (also non-uniformly scaled ones) are never obstacles
         leaves.update(others)
         handle = group.handle if group else prims[members[0]].top
         layer = group.layer if group else prims[members[0]].layer

@@ -150,8 +150,9 @@ def hatch_rings_flattener(hatch, maxv: int | None):
                 pieces = [p for p in (_edge_points(edge, tol, maxv) for edge in path.edges)
                           if p is not None and len(p) >= 2]
                 if pieces:
-                    span = float(np.ptp(np.vstack(pieces), axis=0).max()) if pieces else 1.0
-                    rings.extend(_chain(pieces, max(span, 1.0) * 1e-9 + 1e-9))
+                    span = float(np.ptp(np.vstack(pieces), axis=0).max())
+                    eps = span * 1e-9 + 1e-9 if np.isfinite(span) else 1e-9
+                    rings.extend(_chain(pieces, eps))
         out = []
         for r in rings:
             if len(r) >= 3:

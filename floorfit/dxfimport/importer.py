@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import functools
 import math
-import os
 from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -18,6 +17,7 @@ from typing import Any
 
 import numpy as np
 import shapely
+from shapely.errors import GEOSException
 
 from ..errors import FloorfitError, InputError, PlanImportError
 from ..plan import Doorway, ImportIssue, LayerInfo, Plan
@@ -36,6 +36,9 @@ __all__ = ["ImportResult", "import_drawing", "DEFAULT_CURVE_TOLERANCE_M"]
 #: engine grows the vehicle by this amount, so "fits" stays sound.
 DEFAULT_CURVE_TOLERANCE_M = 0.005
 _MAX_LISTED_HANDLES = 5
+#: Plausible median width of door openings drawn as lines, metres (wider than a door leaf:
+#: double doors and shop fronts; common practice).
+OPENING_RANGE_M = (0.5, 5.0)
 
 
 @dataclass
@@ -95,6 +98,14 @@ def _header(doc, name: str):
     return None
 
 
+def _header_int(doc, name: str) -> int | None:
+    value = _header(doc, name)
+    try:
+        return int(value) if value is not None else None
+    except (TypeError, ValueError):
+        return None
+
+
 def _polygons_of(geom) -> list[shapely.Polygon]:
     if geom is None or geom.is_empty:
         return []
@@ -143,7 +154,10 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
                 polys = [poly for ring in paths for poly in _ring_polygon(ring)]
                 if not polys:
                     continue
-                merged = functools.reduce(shapely.symmetric_difference, polys) if len(polys) > 1 else polys[0]
+                try:       # even-odd rule: islands become holes
+                    merged = functools.reduce(shapely.symmetric_difference, polys) if len(polys) > 1 else polys[0]
+                except GEOSException:
+                    merged = shapely.union_all(polys)
                 thickness = _fill_thickness(merged) * mpu
                 hrole, _ = hatch_policy(p.pattern, role, thickness)
                 notes[f"hatch-{hrole}"] += 1
@@ -177,9 +191,14 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
             continue
         walls.extend(paths)
     for lines in pools.values():
-        # snap to a grid far below the chord tolerance so that arc ends meet exactly
-        noded = shapely.union_all(shapely.set_precision(np.array(lines, dtype=object), tol_units / 100.0))
-        polys, cuts, dangles, invalid = shapely.polygonize_full(shapely.get_parts(noded))
+        try:
+            # snap to a grid far below the chord tolerance so that arc ends meet exactly
+            noded = shapely.union_all(shapely.set_precision(np.array(lines, dtype=object), tol_units / 100.0))
+            polys, cuts, dangles, invalid = shapely.polygonize_full(shapely.get_parts(noded))
+        except GEOSException:
+            walls.extend(np.asarray(x.coords) for x in lines)      # keep the outline as linework
+            notes["solid-lines-no-face"] += len(lines)
+            continue
         faces = [g for g in shapely.get_parts(polys) if g.area > 0]
         solids.extend(faces)
         for extra in (cuts, dangles, invalid):
@@ -189,6 +208,21 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
         if not faces:
             notes["solid-lines-no-face"] += len(lines)
     return walls, solids
+
+
+def _flatten_all(prims: list[Prim], tol_units: float, issues: list[ImportIssue]) -> list[list[np.ndarray]]:
+    """Flatten every primitive; a malformed curve is reported and dropped, never fatal."""
+    flat = []
+    for p in prims:
+        try:
+            flat.append([np.asarray(x, dtype=float).reshape(-1, 2) for x in p.paths(tol_units)])
+        except FloorfitError:
+            raise
+        except Exception as exc:
+            issues.append(ImportIssue("skipped", f"cannot flatten {p.dxftype}: {type(exc).__name__}: {exc}",
+                                      p.handle, p.layer))
+            flat.append([])
+    return flat
 
 
 def _extent_of(flat: list[list[np.ndarray]], window) -> tuple[float, float, float, float] | None:
@@ -254,7 +288,7 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
         if any(i.kind == "truncated" for i in issues):
             raise PlanImportError("the file is cut short (no EOF marker) and no model-space entity "
                                   "could be recovered", name)
-        raise PlanImportError(f"model space is empty (paper space holds {paper} entities; "
+        raise PlanImportError(f"model space is empty (paper space holds {paper} entit{'y' if paper == 1 else 'ies'}; "
                               "floorfit reads model space only)", name)
 
     walk = walk_modelspace(doc, name, resolver, limits, layer_patterns)
@@ -271,10 +305,9 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
         texts = [t for t in texts if x0 <= t.x <= x1 and y0 <= t.y <= y1]
 
     # --- units --------------------------------------------------------------------------
-    code = _header(doc, "$INSUNITS")
     evidence = UnitEvidence(
-        header_code=int(code) if code is not None else None,
-        measurement=_header(doc, "$MEASUREMENT"),
+        header_code=_header_int(doc, "$INSUNITS"),
+        measurement=_header_int(doc, "$MEASUREMENT"),
         door_sizes=door_size_evidence(prims, walk.door_groups),
     )
     obstacle_prims = [p for p in prims if p.role not in ("door-block", "ignore")]
@@ -293,13 +326,17 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
 
     # --- flatten, doors, geometry -------------------------------------------------------
     tol_units = curve_tolerance_m / mpu
-    flat = [p.paths(tol_units) for p in prims]
+    flat = _flatten_all(prims, tol_units, issues)
     extra = [np.array([[t.x, t.y] for t in texts])] if texts else []
     extra += walk.extra_points
     drawn_extent = _extent_of(flat + [extra], window)
     doors_found, remove, leaves = find_doors(prims, flat, walk.door_groups, mpu)
     notes: Counter = Counter()
-    wall_paths, solid_polys = _build_geometry(prims, flat, remove, leaves, keep_door_leaves, notes, mpu, tol_units)
+    try:
+        wall_paths, solid_polys = _build_geometry(prims, flat, remove, leaves, keep_door_leaves, notes, mpu,
+                                                  tol_units)
+    except GEOSException as exc:
+        raise PlanImportError(f"geometry could not be built ({exc})", name) from None
 
     walls = _linestrings([w for w in wall_paths if len(w) >= 2])
     degenerate = 0
@@ -369,10 +406,10 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
         count = walk.layer_counts.get(lname, 0)
         layer_infos.append(LayerInfo(lname, choice.role, count, choice.reason))
         layer_roles[lname] = (choice.role, choice.reason)
-        if not choice.known and count > 0 and (layer_patterns is None or walk_selected(lname, layer_patterns)):
-            issues.append(ImportIssue("unknown-layer", f"layer '{lname}' ({count} entities) matches no known "
-                                      "name: treated as wall; give it a role in the site file [layers] table",
-                                      layer=lname))
+        if not choice.known and count > 0 and (layer_patterns is None or _selected(lname, layer_patterns)):
+            what = "is layer 0 (drawn without a layer)" if lname == "0" else "matches no known name"
+            issues.append(ImportIssue("unknown-layer", f"layer '{lname}' ({count} entities) {what}: treated as "
+                                      "wall; give it a role in the site file [layers] table", layer=lname))
     issues.extend(ImportIssue(k, m, h, lay) for k, m, h, lay in walk.issues)
     issues.extend(_skipped_issues(walk))
     if notes.get("hatch-ignore"):
@@ -382,6 +419,14 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
         if not (0.5 <= d.width_m <= 2.6) and d.source != "opening-line":
             issues.append(ImportIssue("door", f"door width {d.width_m:.3g} m is unusual (check the unit)",
                                       d.handle, d.layer))
+    openings = [d.width_m for d in doorways if d.source == "opening-line"]
+    if openings and not decision.warning:
+        median = float(np.median(openings))
+        if not (OPENING_RANGE_M[0] <= median <= OPENING_RANGE_M[1]):
+            layers_txt = ", ".join(sorted({d.layer for d in doorways if d.source == "opening-line"}))
+            issues.append(ImportIssue("units", f"openings on layer {layers_txt} are {median:.3g} m wide (median of "
+                                      f"{len(openings)}) with unit {decision.name}: the drawing scale may be wrong; "
+                                      "check for a scale note and pass --units", layer=layers_txt))
     sheet = _sheet_warning(walk, layer_roles)
     if sheet:
         issues.append(ImportIssue("not-a-plan", sheet))
@@ -402,7 +447,7 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
                         drawn_extent_m=[v * mpu for v in drawn_extent] if drawn_extent else None)
 
 
-def walk_selected(layer: str, patterns: list[str]) -> bool:
+def _selected(layer: str, patterns: list[str]) -> bool:
     import fnmatch
     from .roles import strip_xref_prefix
     full, core = layer.lower(), strip_xref_prefix(layer).lower()

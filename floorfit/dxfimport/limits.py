@@ -20,7 +20,7 @@ import numpy as np
 from ..errors import LimitExceeded, PlanImportError
 
 __all__ = ["ImportLimits", "check_block_graph", "check_points", "check_vertex_count", "BlockStats", "block_key",
-           "grid_multiplicity"]
+           "grid_multiplicity", "grid_shape"]
 
 
 @dataclass(frozen=True)
@@ -76,12 +76,19 @@ def block_key(name: str) -> str:
     return str(name).casefold()
 
 
-def grid_multiplicity(insert) -> int:
-    """Number of grid copies a (M)INSERT produces (1 for a plain INSERT)."""
+def grid_shape(insert) -> tuple[int, int]:
+    """(rows, columns) of a MINSERT grid, (1, 1) for a plain INSERT. A count whose spacing
+    is zero collapses to 1, as the copies would coincide."""
     dxf = insert.dxf
     rows = int(dxf.get("row_count", 1) or 1) if dxf.get("row_spacing", 0) else 1
     cols = int(dxf.get("column_count", 1) or 1) if dxf.get("column_spacing", 0) else 1
-    return max(rows, 1) * max(cols, 1)
+    return max(rows, 1), max(cols, 1)
+
+
+def grid_multiplicity(insert) -> int:
+    """Number of grid copies a (M)INSERT produces (1 for a plain INSERT)."""
+    rows, cols = grid_shape(insert)
+    return rows * cols
 
 
 def _attrib_count(insert) -> int:
@@ -114,8 +121,8 @@ def check_block_graph(doc, limits: ImportLimits, path: str) -> BlockStats:
         if layout is not None:
             for e in layout:
                 if e.dxftype() == "INSERT":
-                    kids.append((block_key(e.dxf.name), grid_multiplicity(e)))
-                    shown.setdefault(block_key(e.dxf.name), e.dxf.name)
+                    kids.append((block_key(e.dxf.get("name", "")), grid_multiplicity(e)))
+                    shown.setdefault(block_key(e.dxf.get("name", "")), e.dxf.get("name", ""))
                     n += _attrib_count(e) * grid_multiplicity(e)
                 else:
                     n += 1
@@ -130,8 +137,8 @@ def check_block_graph(doc, limits: ImportLimits, path: str) -> BlockStats:
     msp_own = 0
     for e in doc.modelspace():
         if e.dxftype() == "INSERT":
-            msp_refs.append((block_key(e.dxf.name), grid_multiplicity(e), e.dxf.handle or "?"))
-            shown.setdefault(block_key(e.dxf.name), e.dxf.name)
+            msp_refs.append((block_key(e.dxf.get("name", "")), grid_multiplicity(e), e.dxf.handle or "?"))
+            shown.setdefault(block_key(e.dxf.get("name", "")), e.dxf.get("name", ""))
             msp_own += _attrib_count(e) * grid_multiplicity(e)
         else:
             msp_own += 1
@@ -153,8 +160,7 @@ def check_block_graph(doc, limits: ImportLimits, path: str) -> BlockStats:
                 if len(path_names) > limits.max_block_depth:
                     raise LimitExceeded(
                         f"blocks nest deeper than {limits.max_block_depth} levels "
-                        f"(block '{shown.get(name, name)}' at depth {len(path_names)}; "
-                        "ImportLimits.max_block_depth)", path, f"block '{shown.get(name, name)}'")
+                        "(ImportLimits.max_block_depth)", path, f"block '{shown.get(name, name)}'")
             kids = children[name]
             if idx < len(kids):
                 stack.append((name, idx + 1))
@@ -165,7 +171,7 @@ def check_block_graph(doc, limits: ImportLimits, path: str) -> BlockStats:
                     chain = " -> ".join(shown.get(n, n) for n in [*path_names[start:], child])
                     what = "references itself" if len(path_names) - start == 1 else "references itself through a chain"
                     label = shown.get(child, child)
-                    raise LimitExceeded(f"block '{label}' {what} ({chain})", path, f"block '{label}'")
+                    raise LimitExceeded(f"{what} ({chain})", path, f"block '{label}'")
                 if state != 2:
                     stack.append((child, 0))
                 continue

@@ -14,6 +14,7 @@ from pathlib import Path
 
 import ezdxf
 from ezdxf import recover
+from ezdxf.entities import DXFGraphic
 
 from ..errors import PlanImportError
 
@@ -61,14 +62,24 @@ def _ends_with_eof(path: Path) -> bool:
 
 
 def _audit_issues(auditor) -> list[tuple[str, str, str | None]]:
+    """Audit fixes of drawn entities one by one (with handles); fixes of non-graphical
+    objects (dictionaries, buffers, tables) summed up in one line."""
     out = []
+    other: list[str] = []
     entries = [("fix", e) for e in auditor.fixes] + [("error", e) for e in auditor.errors]
-    for what, entry in entries[:_MAX_AUDIT_LISTED]:
-        dxf = getattr(getattr(entry, "entity", None), "dxf", None)
-        handle = dxf.get("handle") if dxf is not None else None
-        out.append(("repaired", f"audit {what}: {' '.join(str(entry.message).split())}", handle))
-    if len(entries) > _MAX_AUDIT_LISTED:
-        out.append(("repaired", f"audit: {len(entries) - _MAX_AUDIT_LISTED} more fixes not listed", None))
+    for what, entry in entries:
+        entity = getattr(entry, "entity", None)
+        message = " ".join(str(entry.message).split())
+        if isinstance(entity, DXFGraphic):
+            if len(out) < _MAX_AUDIT_LISTED:
+                out.append(("repaired", f"audit {what}: {message}", entity.dxf.get("handle")))
+            else:
+                other.append(message)
+        else:
+            other.append(message)
+    if other:
+        out.append(("repaired", f"audit repaired {len(other)} problem(s) in non-graphical objects or beyond the "
+                    f"first {_MAX_AUDIT_LISTED}, e.g. {other[0]}", None))
     return out
 
 

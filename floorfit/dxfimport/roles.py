@@ -72,6 +72,10 @@ DEFAULT_LAYER_RULES: list[tuple[tuple[str, ...], str, str]] = [
     (("a-case*", "a-flor-case*", "*casework*", "a-eqpm*", "*-eqpm*", "*equipment*",
       "a-fixt*", "a-flor-fixt*", "p-fixt*", "*fixture*", "*-plmb-fixt*", "*sanitary*",
       "*rack*", "*regal*", "*shelv*", "*机柜*"), "solid", "fixed fixtures / equipment / racks"),
+    # building services overlays: wiring, ducts, piping runs, lighting (not floor obstacles)
+    (("e-*", "m-*", "*electrical*", "*elektr*", "*electric*", "*电气*", "*强电*", "*弱电*", "*hvac*",
+      "*duct*", "*sprinkler*", "*lighting*", "*暖通*", "*给排水*"), "ignore",
+     "building services overlay (wiring, ducts): not floor obstacles"),
     # furniture (policy by block / layer name)
     (("a-furn*", "i-furn*", "*-furn*", "*furn*", "f-fur*", "*möbel*", "*moebel*", "*mobilier*",
       "*mueble*", "*mobili*", "*家具*", "*chair*", "*seat*", "*stuhl*"), "furniture", "furniture"),

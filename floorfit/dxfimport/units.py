@@ -17,7 +17,6 @@ or 0 = unitless) the most plausible unit is chosen and the reason is stated.
 from __future__ import annotations
 
 import difflib
-import math
 import re
 from dataclasses import dataclass, field
 

@@ -24,14 +24,15 @@ from typing import Callable
 
 import numpy as np
 from ezdxf import bbox as ezdxf_bbox
+from ezdxf.lldxf.encoding import decode_dxf_unicode, has_dxf_unicode
 from ezdxf.math import OCS, Vec3
 
 from ..errors import FloorfitError, LimitExceeded, PlanImportError
 from .curves import TooManyVertices, arc_points, bulge_polyline, ellipse_points, spline_points
-from .limits import ImportLimits, block_key, check_points, check_vertex_count
+from .limits import ImportLimits, check_points, check_vertex_count
 from .roles import RoleResolver, strip_xref_prefix
 
-__all__ = ["ArcInfo", "Prim", "TextItem", "DoorGroup", "WalkResult", "walk_modelspace", "clean_text"]
+__all__ = ["ArcInfo", "Prim", "TextItem", "DoorGroup", "WalkResult", "walk_modelspace", "clean_text", "dxf_name"]
 
 #: Entity types that are never obstacles: counted and reported, not imported.
 SKIPPED_TYPES = {
@@ -135,15 +136,24 @@ class WalkResult:
 
 
 def clean_text(text: str) -> str:
-    """Text as stored in the drawing minus control characters; whitespace runs become one space."""
+    """Text as written in the drawing: DXF ``\\U+XXXX`` escapes decoded, control and format
+    characters (including bidirectional overrides) removed, whitespace runs made one space."""
+    if has_dxf_unicode(text):
+        text = decode_dxf_unicode(text)
     out = []
     for ch in text:
         cat = unicodedata.category(ch)
-        if cat == "Cc" or cat == "Cf" and ch not in "\u200d":
+        if cat == "Cc" or (cat == "Cf" and ch != "\u200d"):
             out.append(" " if ch in "\n\r\t\v\f" else "")
         else:
             out.append(ch)
     return " ".join("".join(out).split())
+
+
+def dxf_name(name: str) -> str:
+    """A layer or block name with DXF ``\\U+XXXX`` escapes decoded (pre-2007 files write
+    non-ASCII names that way)."""
+    return decode_dxf_unicode(name) if has_dxf_unicode(name) else name
 
 
 def _box_corners(entity) -> list[tuple[float, float, float]]:
@@ -223,10 +233,11 @@ class _Walker:
 
     def to_world(self, pts3: np.ndarray, ctx: _Ctx, ocs: np.ndarray | None = None) -> np.ndarray:
         """(N, 3) entity coordinates (OCS when ``ocs`` given) -> (N, 2) world, drawing units."""
-        if ocs is not None:
-            pts3 = pts3 @ ocs
-        m = ctx.m
-        return pts3 @ m[:3, :2] + m[3, :2]
+        with np.errstate(invalid="ignore", over="ignore"):   # non-finite input is reported by check()
+            if ocs is not None:
+                pts3 = pts3 @ ocs
+            m = ctx.m
+            return pts3 @ m[:3, :2] + m[3, :2]
 
     def stretch(self, ctx: _Ctx, ocs: np.ndarray | None = None) -> float:
         """Largest factor by which the transform (entity frame -> world xy) stretches lengths."""
@@ -270,7 +281,7 @@ class _Walker:
         ctx = _Ctx(m=np.eye(4), depth=0, layer=None, forced=None, forced_reason="", group=-1,
                    inst=-1, blocks=(), top="", block_name=None)
         for layer in self.doc.layers:
-            self.out.layer_names.add(layer.dxf.name)
+            self.out.layer_names.add(dxf_name(layer.dxf.name))
         for entity in self.doc.modelspace():
             handle = entity.dxf.get("handle", "?")
             top_ctx = _Ctx(ctx.m, 0, None, None, "", -1, -1, (), handle, None)
@@ -279,12 +290,22 @@ class _Walker:
 
     def visit(self, e, ctx: _Ctx) -> None:
         dxftype = e.dxftype()
-        handle = e.dxf.get("handle", "?")
-        own_layer = e.dxf.get("layer", "0") or "0"
+        try:
+            handle = e.dxf.get("handle", "?")
+            own_layer = dxf_name(e.dxf.get("layer", "0") or "0")
+        except Exception:        # unknown or damaged entity type without the common attributes
+            self.out.skipped[dxftype].append(getattr(e.dxf, "handle", None) or "?")
+            return
         layer = ctx.layer if (own_layer == "0" and ctx.layer is not None) else own_layer
         self.out.entity_count += 1
         if dxftype == "INSERT":
-            self.visit_insert(e, ctx, layer)
+            try:
+                self.visit_insert(e, ctx, layer)
+            except FloorfitError:
+                raise
+            except Exception as exc:  # a malformed INSERT must not stop the import
+                self.out.issues.append(("skipped", f"cannot read INSERT: {type(exc).__name__}: {exc}",
+                                        handle, layer))
             return
         self.out.layer_counts[layer] += 1
         self.out.layer_names.add(layer)
@@ -360,8 +381,9 @@ class _Walker:
     # -- INSERT ----------------------------------------------------------------------------
     def visit_insert(self, e, ctx: _Ctx, layer: str) -> None:
         handle = e.dxf.get("handle", "?")
-        name = e.dxf.get("name", "")
-        block = self.doc.blocks.get(name)
+        raw_name = e.dxf.get("name", "")
+        block = self.doc.blocks.get(raw_name)
+        name = dxf_name(raw_name)
         where = self.where(handle, ctx)
         self.out.layer_counts[layer] += 1
         self.out.layer_names.add(layer)
@@ -391,7 +413,7 @@ class _Walker:
         except AttributeError:
             attribs = []
         for att in attribs:
-            att_layer = att.dxf.get("layer", "0") or "0"
+            att_layer = dxf_name(att.dxf.get("layer", "0") or "0")
             att_layer = layer if att_layer == "0" else att_layer
             if not self.layer_selected(att_layer):
                 continue

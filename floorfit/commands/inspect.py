@@ -1,0 +1,79 @@
+"""``floorfit inspect PLAN.dxf``: what the importer sees in a drawing, before any fit check.
+
+Prints the DXF version, the unit used and why (with a warning naming the likely unit
+when the header looks wrong), the extent in metres, every layer with its entity count
+and role, the number of obstacles, doors and labels, and every import issue with
+entity handles. ``--json OUT.json`` writes the same report as JSON.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import tempfile
+from pathlib import Path
+
+from ..errors import InputError
+
+NAME = "inspect"
+HELP = "show how a DXF floor plan is read: unit, extent, layers and roles, doors, labels, issues"
+ORDER = 8
+
+__all__ = ["NAME", "HELP", "ORDER", "add_arguments", "run", "parse_window"]
+
+
+def parse_window(text: str) -> tuple[float, float, float, float]:
+    """``"xmin,ymin,xmax,ymax"`` (drawing units) -> four floats."""
+    parts = [p for p in str(text).replace(";", ",").split(",")]
+    try:
+        values = tuple(float(p) for p in parts)
+    except ValueError:
+        raise InputError(f"expected four numbers xmin,ymin,xmax,ymax, got '{text}'", None, "--window") from None
+    if len(values) != 4:
+        raise InputError(f"expected four numbers xmin,ymin,xmax,ymax, got {len(values)} in '{text}'",
+                         None, "--window")
+    return values
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("plan", help="the DXF drawing")
+    parser.add_argument("--units", help="drawing unit overriding the header: mm, cm, m, in, ft")
+    parser.add_argument("--window", help="crop window in drawing units: xmin,ymin,xmax,ymax")
+    parser.add_argument("--layers", nargs="+", metavar="PATTERN",
+                        help="read only layers matching these patterns (case-insensitive, * and ?)")
+    parser.add_argument("--site", help="site file (TOML) with [layers] and [blocks] role tables")
+    parser.add_argument("--json", metavar="OUT.json", help="also write the report as JSON")
+
+
+def write_json_atomic(path: str | os.PathLike, data: dict) -> None:
+    """Write JSON to a temporary file in the target folder, then rename it over the target."""
+    target = Path(path)
+    folder = target.parent if str(target.parent) else Path(".")
+    if not folder.is_dir():
+        raise InputError("folder does not exist", str(folder), "--json")
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            json.dump(data, fh, indent=2, ensure_ascii=False, allow_nan=False)
+            fh.write("\n")
+        os.replace(tmp, target)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+
+
+def run(args: argparse.Namespace) -> int:
+    from ..dxfimport import inspect_plan, read_roles
+    from ..dxfimport.report import format_report
+
+    roles = read_roles(args.site) if args.site else None
+    window = parse_window(args.window) if args.window else None
+    report = inspect_plan(args.plan, units=args.units, roles=roles, window=window, layers=args.layers)
+    print(format_report(report))
+    if args.json:
+        write_json_atomic(args.json, report)
+    return 0
