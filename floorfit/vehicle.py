@@ -22,6 +22,11 @@ default ``length / 2``, the centre) and ``reference_to_left`` (to the left edge;
 obstacle whose bottom is at or above it (a table top, a conveyor, a door header) does
 not count. Without it the vehicle is treated as infinitely tall (every obstacle counts).
 
+The outline can also come from a file, relative to the vehicle file: ``outline_dxf =
+"robot.dxf"`` (a closed polyline; ``outline_layer``, ``outline_block`` and
+``outline_units`` choose it) or ``factsheet = "agv.json"`` (a VDA 5050 factsheet: its 2-D
+envelope, and its maximum height when ``height`` is not given).
+
 Named outline states: a ``[loaded]`` table with any of the ``[footprint]`` keys describes
 the vehicle with its load (a longer outline, a larger margin, a taller mast); choose it
 with ``load_vehicle(path, state="loaded")`` (``--loaded`` on the command line).
@@ -180,7 +185,9 @@ def _validated_outline(points, source, where) -> Polygon:
 
 
 _TOP_KEYS = ("name", "footprint", "motion", "loaded")
-_FOOTPRINT_KEYS = ("outline", "width", "length", "reference_to_front", "reference_to_left", "margin", "height")
+_FOOTPRINT_KEYS = ("outline", "width", "length", "reference_to_front", "reference_to_left", "margin", "height",
+                   "outline_dxf", "outline_layer", "outline_block", "outline_units", "factsheet")
+_FILE_KEYS = ("outline_dxf", "factsheet")
 STATES = ("default", "loaded")
 _MOTION_KEYS = ("mode", "reverse", "min_turn_radius", "heading")
 
@@ -232,6 +239,23 @@ def load_vehicle(path: str | Path, state: str = "default") -> Vehicle:
                            src, "motion.min_turn_radius")
     extra = dict(reverse=reverse, min_turn_radius_m=radius, fixed_heading_deg=heading, height_m=height,
                  state=state)
+    given = [k for k in ("outline", "outline_dxf", "factsheet") if k in fp]
+    if len(given) > 1:
+        raise VehicleError(f"give one of outline, outline_dxf or factsheet, not {' and '.join(given)}", src,
+                           f"{prefix}{given[1]}")
+    if "outline_dxf" in fp or "factsheet" in fp:
+        for k in ("width", "length", "reference_to_front", "reference_to_left"):
+            if k in fp:
+                raise VehicleError(f"an outline file and the rectangle (width, length) exclude each other ('{k}')",
+                                   src, f"{prefix}{k}")
+        pts, file_height = _outline_from_file(fp, src, prefix, state)
+        if extra["height_m"] is None and file_height is not None:
+            extra["height_m"] = file_height
+        return vehicle_from_outline(pts, name=name, margin=margin, mode=mode, source=src,
+                                    where=f"{prefix}outline", **extra)
+    for k in ("outline_layer", "outline_block", "outline_units"):
+        if k in fp:
+            raise VehicleError(f"'{k}' only applies with outline_dxf", src, f"{prefix}{k}")
     if "outline" in fp:
         for k in ("width", "length", "reference_to_front", "reference_to_left"):
             if k in fp:
@@ -249,3 +273,20 @@ def load_vehicle(path: str | Path, state: str = "default") -> Vehicle:
     pts = [(front, left - width), (front, left), (front - length, left), (front - length, left - width)]
     return vehicle_from_outline(pts, name=name, margin=margin, mode=mode, source=src,
                                 where=prefix.rstrip("."), **extra)
+
+
+def _outline_from_file(fp: dict, src: str, prefix: str, state: str):
+    """Outline points (metres) and height (or None) from an outline DXF or a VDA 5050 factsheet."""
+    base = Path(src).parent
+    if "outline_dxf" in fp:
+        from .dxfimport import outline_from_dxf
+        name = get_string(fp, "outline_dxf", src, prefix, VehicleError)
+        pts = outline_from_dxf(base / name, layer=get_string(fp, "outline_layer", src, prefix, VehicleError),
+                               block=get_string(fp, "outline_block", src, prefix, VehicleError),
+                               units=get_string(fp, "outline_units", src, prefix, VehicleError))
+        return pts, None
+    from .vda5050 import outline_from_factsheet
+    name = get_string(fp, "factsheet", src, prefix, VehicleError)
+    sheet = outline_from_factsheet(base / name)
+    pts = sheet.get("loaded_outline") if state == "loaded" and sheet.get("loaded_outline") else sheet["outline"]
+    return pts, sheet.get("height_m")
