@@ -48,7 +48,7 @@ from .sizelimits import check_problem_size
 from .turnability import heading_ranges, heading_raster, turn_region, turning_circle
 from .vehicle import Vehicle
 
-__all__ = ["run_check", "station_nodes", "validate_stations", "MAP_MAX_CELLS", "PERSON_HEADROOM_M"]
+__all__ = ["run_check", "station_nodes", "validate_stations", "rank_findings", "MAP_MAX_CELLS", "PERSON_HEADROOM_M"]
 
 #: The turnability map is sampled on at most this many cells (its cell size grows on big sites).
 MAP_MAX_CELLS = 400_000
@@ -477,7 +477,7 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
 
 def _finish(findings, cuts, slices, vehicle, person, req, site, cell, map_cell, needed, plan, stations, reach,
             turnability, notes) -> CheckResult:
-    findings = _rank(findings)
+    findings = rank_findings(findings)
     cuts_ids = {k: [f.id for f in v] for k, v in cuts.items()}
     settings = slices.settings()
     settings.update({
@@ -576,7 +576,8 @@ def _noturn_finding(plan, vehicle, slices, raster, mask, fits, stations, st_loca
                    clear_width_m=None, needed_width_m=None)
 
 
-def _rank(findings: list[Finding]) -> list[Finding]:
+def rank_findings(findings: list[Finding]) -> list[Finding]:
+    """Order findings (what cuts off stations first, then by kind and place) and number them F1, F2, …"""
     order = {"blocked": 0, "no-turn": 1, "tight": 2, "maneuver": 3}
 
     def key(f: Finding):

@@ -45,7 +45,7 @@ from shapely.geometry import Polygon
 from .errors import VehicleError
 from .tomlcheck import check_keys, get_bool, get_number, get_points, get_string, read_toml
 
-__all__ = ["Vehicle", "load_vehicle", "rectangle_vehicle", "vehicle_from_outline", "MOTION_MODES",
+__all__ = ["Vehicle", "load_vehicle", "vehicle_from_table", "rectangle_vehicle", "vehicle_from_outline", "MOTION_MODES",
            "PLAUSIBLE_SIZE_M"]
 
 MOTION_MODES = ("omni", "differential", "car", "fixed")
@@ -197,9 +197,16 @@ def load_vehicle(path: str | Path, state: str = "default") -> Vehicle:
 
     ``state="loaded"`` applies the file's ``[loaded]`` table over ``[footprint]``.
     """
-    src = str(path)
-    data = read_toml(path, VehicleError)
-    check_keys(data, _TOP_KEYS, src, "", VehicleError)
+    return vehicle_from_table(read_toml(path, VehicleError), str(path), state=state)
+
+
+def vehicle_from_table(data: dict, src: str, *, state: str = "default", extra_keys: tuple[str, ...] = (),
+                       default_mode: str = "omni") -> Vehicle:
+    """Validate an already parsed vehicle table (``name``, ``[footprint]``, ``[motion]``, ``[loaded]``).
+
+    ``extra_keys`` are further top-level tables a caller reads itself (a train's ``[cart]``).
+    """
+    check_keys(data, _TOP_KEYS + tuple(extra_keys), src, "", VehicleError)
     if state not in STATES:
         raise VehicleError(f"unknown vehicle state '{state}' (one of {', '.join(STATES)})", src)
     name = get_string(data, "name", src, "", VehicleError, default=Path(src).stem)
@@ -230,12 +237,12 @@ def load_vehicle(path: str | Path, state: str = "default") -> Vehicle:
     if not isinstance(motion, dict):
         raise VehicleError("[motion] must be a table", src, "motion")
     check_keys(motion, _MOTION_KEYS, src, "motion.", VehicleError)
-    mode = get_string(motion, "mode", src, "motion.", VehicleError, default="omni", choices=MOTION_MODES)
+    mode = get_string(motion, "mode", src, "motion.", VehicleError, default=default_mode, choices=MOTION_MODES)
     reverse = get_bool(motion, "reverse", src, "motion.", VehicleError, default=True)
     radius = get_number(motion, "min_turn_radius", src, "motion.", VehicleError, minimum=0.0)
     heading = get_number(motion, "heading", src, "motion.", VehicleError, minimum=-360.0, maximum=360.0)
-    if mode == "car" and radius is None:
-        raise VehicleError("a car-like vehicle needs min_turn_radius (metres, at the reference point)",
+    if mode == "car" and (radius is None or radius <= 0):
+        raise VehicleError("a car-like vehicle needs min_turn_radius above 0 (metres, at the reference point)",
                            src, "motion.min_turn_radius")
     extra = dict(reverse=reverse, min_turn_radius_m=radius, fixed_heading_deg=heading, height_m=height,
                  state=state)

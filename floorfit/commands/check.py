@@ -40,7 +40,11 @@ def check_and_report(args):
 
     site = read_site(args.site) if args.site else Site()
     extra = [parse_station_flag(s) for s in args.station]
-    vehicle = load_vehicle(args.vehicle, state="loaded" if getattr(args, "loaded", False) else "default")
+    from ..articulated import articulated_check, merge_into_result, split_vehicle_file
+
+    state = "loaded" if getattr(args, "loaded", False) else "default"
+    vehicle, train = split_vehicle_file(args.vehicle) if state == "default" else \
+        (load_vehicle(args.vehicle, state=state), None)
     progress = Progress(quiet=args.quiet)
     progress.stage("reading the drawing")
     plan = apply_height_ranges(load_plan_from_args(args, roles=site.roles), site.heights)
@@ -51,6 +55,10 @@ def check_and_report(args):
     stations = [s for s in stations if s.name not in given] + extra
     result = run_check(plan, vehicle, stations, site=site, heading_step_deg=args.heading_step,
                        workers=args.workers, progress=progress.stage)
+    if train is not None:      # a tractor with a cart: the train must follow forward
+        tc = articulated_check(plan, train, stations, site, reachable=result.reachable,
+                               progress=progress.stage, floor=result.turnability.get("fits"))
+        merge_into_result(result, tc)
     progress.done()
     written = write_report(result, args.out, force=args.force, quiet=args.quiet)
     return result, written
