@@ -57,6 +57,10 @@ def _seeds() -> list[bytes]:
     demo = HERE.parent / "plans" / "harbourside-dc.dxf"
     if demo.exists():
         seeds.append(demo.read_bytes())
+    # a real third-party drawing, read in place (plans-real #9, LGPL-3.0-or-later; not copied)
+    real = HERE.parents[1] / "shared" / "plans-real" / "PedestrianDynamics__jupedsim__Gallery.dxf"
+    if real.exists():
+        seeds.append(real.read_bytes())
     return seeds
 
 
