@@ -32,6 +32,9 @@ _LAZY = {
     "RouteResult": "floorfit.route",
     "run_check": "floorfit.check",
     "FloorfitError": "floorfit.errors",
+    "DriveLimits": "floorfit.drive",
+    "size_vehicle": "floorfit.sizing",
+    "compare_layouts": "floorfit.compare",
 }
 
 __all__ = sorted(_LAZY) + ["__version__"]

@@ -45,7 +45,8 @@ from .raster import fill_polygons
 from .roadmap import build_roadmap
 from .site import Site
 from .sizelimits import check_problem_size
-from .turnability import heading_ranges, heading_raster, turn_region, turning_circle
+from .maneuvers import maneuver_findings, route_sweeps, turnaround_circle
+from .turnability import heading_ranges, heading_raster, turn_region
 from .vehicle import Vehicle
 
 __all__ = ["run_check", "station_nodes", "validate_stations", "rank_findings", "MAP_MAX_CELLS", "PERSON_HEADROOM_M"]
@@ -258,11 +259,14 @@ def _sides_of_events(events, regions):
 
 def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Site | None = None,
               heading_step_deg: float | None = None, workers: int | None = 1,
-              progress: Callable[[str], None] | None = None, quick: bool = False) -> CheckResult:
+              progress: Callable[[str], None] | None = None, quick: bool = False,
+              routes=None) -> CheckResult:
     """Check a site for a vehicle. Stations in the drawing frame (metres, degrees).
 
     ``quick=True`` finds reachability and blocked places only (no tight spots, no
     turnability map, no no-turn stretches): what sizing needs to name the binding place.
+    ``routes``: (from, to) station-name pairs whose drivable path and swept area the report
+    draws (default: the site file's ``[report] routes``).
     """
     site = site or Site()
     progress = progress or _noop
@@ -427,6 +431,23 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
                                     geometry=shapely.LineString([q1, q2]) if q1 is not None and not np.allclose(q1, q2)
                                     else None))
 
+    # manoeuvres of car-like vehicles and swept routes
+    pair_drives: dict = {}
+    if vehicle.mode == "car" and len(stations) > 1 and not quick:
+        progress("manoeuvres")
+        findings.extend(maneuver_findings(plan, vehicle, slices, stations, roadmap=G, notes=notes,
+                                          pair_drives=pair_drives))
+    wanted = list(routes if routes is not None else site.routes)
+    unknown = sorted({n for pair in wanted for n in pair} - set(names))
+    if unknown:
+        raise SiteError(f"route names a station that is not defined: {', '.join(unknown)}", site.path,
+                        "report.routes")
+    route_dicts = []
+    if wanted and not quick:
+        progress("swept routes")
+        route_dicts = route_sweeps(plan, vehicle, slices, stations, wanted, roadmap=G, notes=notes,
+                                   pair_drives=pair_drives)
+
     # turnability map and no-turn stretches
     if quick:
         return _finish(findings, cuts, slices, vehicle, person, req, site, cell, None, needed, plan, stations,
@@ -451,11 +472,12 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
            or any(c.covers(Point(A.st_local[s.name])) for s in stations)]
     turnability["free_at_heading"] = {"heading_deg": float(slices.cells.headings[k_rep]),
                                       "geometry": shapely.union_all(rep) if rep else shapely.Polygon()}
-    if vehicle.mode in ("omni", "differential") and len(slices) > 1:
-        centre, rho_min = turning_circle(vehicle.footprint)
+    centre, rho_min, _how = turnaround_circle(vehicle)
+    if vehicle.mode != "fixed" and len(slices) > 1 and math.isfinite(rho_min):
         troom = turn_region(obstacles, slices.domain, rho_min + plan.curve_tolerance_m)
         turnability["turns_around"] = troom.intersection(turnability["fits"].buffer(map_cell))
         tmask = fill_polygons(shapely.get_parts(troom), raster.x0, raster.y0, map_cell, *counts.shape[::-1])
+        # the no-turn rule ignores places within a short move of a turn-around place
         reach_d = float(np.hypot(*centre)) + 0.5 * vehicle.length_m + map_cell
         far = ndimage.distance_transform_edt(~tmask) * map_cell > reach_d if tmask.any() else np.ones_like(tmask)
         noturn = fits & far
@@ -471,8 +493,10 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     else:
         notes.append(f"no-turn analysis is not done for motion mode '{vehicle.mode}'")
 
-    return _finish(findings, cuts, slices, vehicle, person, req, site, cell, map_cell, needed, plan, stations,
-                   reach, turnability, notes)
+    result = _finish(findings, cuts, slices, vehicle, person, req, site, cell, map_cell, needed, plan, stations,
+                     reach, turnability, notes)
+    result.routes = route_dicts
+    return result
 
 
 def _finish(findings, cuts, slices, vehicle, person, req, site, cell, map_cell, needed, plan, stations, reach,

@@ -51,6 +51,9 @@ _SITE_TOML = """\
 "A-DOOR" = "door"
 "A-ANNO-TEXT" = "label"
 
+[report]
+routes = [["DOCK", "PICK-A"], ["PICK-A", "SERVICE"]]   # the report draws these drivable paths
+
 [stations]
 DOCK = { x = 15.0, y = 2.2, heading = -90.0 }
 PICK-A = { x = 6.5, y = 11.0 }

@@ -13,6 +13,9 @@ Finding kinds (the JSON ``kind`` values):
     A stretch the vehicle can drive along but where it can never reverse its heading.
 ``tight``
     Passable, but with less clearance than the site asks for.
+``maneuver``
+    A car-like vehicle can serve the stations only with reversing (a multi-point turn), or
+    not at all forward within the search limits.
 """
 
 from __future__ import annotations
@@ -55,6 +58,7 @@ class Finding:
     clearance_m: float | None = None               # clearance found (tight)
     clear_height_m: float | None = None            # lowest overhead obstacle there (height blocks)
     needed_height_m: float | None = None           # the vehicle's height
+    direction_changes: int | None = None           # forward/reverse changes a manoeuvre needs
     required_clearance_m: float | None = None      # clearance the site asks for (tight)
     heading_ranges_deg: list[tuple[float, float]] = field(default_factory=list)
     extent: tuple[float, float, float, float] | None = None   # xmin, ymin, xmax, ymax
@@ -70,6 +74,7 @@ class Finding:
             "clear_width_m": _r(self.clear_width_m), "needed_width_m": _r(self.needed_width_m),
             "clearance_m": _r(self.clearance_m), "required_clearance_m": _r(self.required_clearance_m),
             "clear_height_m": _r(self.clear_height_m), "needed_height_m": _r(self.needed_height_m),
+            "direction_changes": self.direction_changes,
             "heading_ranges_deg": [[round(a, 2), round(b, 2)] for a, b in self.heading_ranges_deg],
             "extent": None if self.extent is None else [round(v, 4) for v in self.extent],
             "cuts_off": list(self.cuts_off),
@@ -101,6 +106,7 @@ class CheckResult:
     cuts: dict[tuple[str, str], list[str]] = field(default_factory=dict)
     turnability: dict[str, Any] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
+    routes: list[dict[str, Any]] = field(default_factory=list)
 
     @property
     def passed(self) -> bool:

@@ -19,6 +19,9 @@ Site file (TOML, metres and degrees, drawing frame)::
     [layers]                        # layer-name pattern → role (see the import notes)
     "A-EQPM-RACK" = "solid"
 
+    [report]
+    routes = [["DOCK", "PICK-A"]]   # station pairs whose swept path the report draws
+
     [heights]                       # layer-name pattern → [bottom, top] above the floor, metres
     "M-CONV-OVHD" = [2.1, 2.6]      # an overhead conveyor: only vehicles taller than 2.1 m meet it
     "A-DOOR-HEAD" = [2.1, 1e9]      # a door header: 2.1 m and up
@@ -53,7 +56,8 @@ CLEARANCE_REFERENCES = {
 }
 DEFAULT_CLEARANCE = "b56.5"
 
-_TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights")
+_TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights", "report")
+_REPORT = ("routes",)
 _STATION = ("x", "y", "heading", "heading_tolerance")
 _CLEARANCE = ("required", "reference")
 _ANALYSIS = ("heading_step", "person_width")
@@ -73,6 +77,7 @@ class Site:
     heading_step_deg: float | None = None
     person_width_m: float = DEFAULT_PERSON_WIDTH_M
     heights: dict[str, tuple[float, float]] = field(default_factory=dict)
+    routes: list[tuple[str, str]] = field(default_factory=list)
 
 
 def _check_name(name: str, path: str | None, where: str, error=SiteError) -> str:
@@ -118,6 +123,15 @@ def read_site(path: str | Path) -> Site:
     if req is not None:
         site.required_clearance_m = req
         site.clearance_reference = ref or "site file"
+    report = data.get("report", {})
+    if not isinstance(report, dict):
+        raise SiteError("[report] must be a table", src, "report")
+    check_keys(report, _REPORT, src, "report.", SiteError)
+    for i, pair in enumerate(report.get("routes", [])):
+        if not (isinstance(pair, list) and len(pair) == 2 and all(isinstance(n, str) for n in pair)):
+            raise SiteError(f"route {i + 1} must be [\"FROM\", \"TO\"] station names, got {pair!r}", src,
+                            "report.routes")
+        site.routes.append((pair[0], pair[1]))
     heights = data.get("heights", {})
     if not isinstance(heights, dict):
         raise SiteError("[heights] must be a table of layer pattern = [bottom, top]", src, "heights")

@@ -21,6 +21,8 @@ def add_arguments(p) -> None:
     p.add_argument("--force", action="store_true", help="write into a folder that holds other files")
     p.add_argument("--heading-step", type=float, metavar="DEG", help="uniform heading step, degrees")
     p.add_argument("--workers", type=int, default=1, metavar="N", help="processes for the slices (default 1)")
+    p.add_argument("--sweep", action="append", default=[], metavar="FROM:TO",
+                   help="draw the drivable path and swept area between two stations; repeatable")
     p.add_argument("--loaded", action="store_true", help="use the vehicle file's [loaded] outline and height")
     p.add_argument("--quiet", action="store_true", help="no progress output")
 
@@ -34,6 +36,7 @@ def run(args) -> int:
 def check_and_report(args):
     """Shared by ``check`` and ``demo``: read inputs, run the check, write the report."""
     from ..check import run_check
+    from ..errors import InputError
     from ..report import Progress, write_report
     from ..site import Site, apply_height_ranges, parse_station_flag, read_site, stations_from_drawing
     from ..vehicle import load_vehicle
@@ -53,8 +56,16 @@ def check_and_report(args):
         stations += stations_from_drawing(args.plan, site.station_layer, plan.metres_per_unit)
     given = {s.name for s in extra}
     stations = [s for s in stations if s.name not in given] + extra
+    sweeps = None
+    if getattr(args, "sweep", None):
+        sweeps = list(site.routes)
+        for text in args.sweep:
+            a, sep, b = text.partition(":")
+            if not sep or not a.strip() or not b.strip():
+                raise InputError(f"--sweep must be FROM:TO station names, got '{text}'", None, "--sweep")
+            sweeps.append((a.strip(), b.strip()))
     result = run_check(plan, vehicle, stations, site=site, heading_step_deg=args.heading_step,
-                       workers=args.workers, progress=progress.stage)
+                       workers=args.workers, progress=progress.stage, routes=sweeps)
     if train is not None:      # a tractor with a cart: the train must follow forward
         tc = articulated_check(plan, train, stations, site, reachable=result.reachable,
                                progress=progress.stage, floor=result.turnability.get("fits"))

@@ -40,7 +40,7 @@ def run(args) -> int:
     print()
     ns = argparse.Namespace(plan=str(paths["plan"]), units=None, window=None, vehicle=str(paths["vehicle"]),
                             site=str(paths["site"]), station=[], out=str(out / "reports" / "demo"), force=True,
-                            heading_step=None, workers=1, quiet=args.quiet, loaded=False)
+                            heading_step=None, workers=1, quiet=args.quiet, loaded=False, sweep=[])
     result, written = check_and_report(ns)
     print(summary_text(result, written))
     return 0

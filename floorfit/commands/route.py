@@ -1,12 +1,27 @@
-"""``floorfit route``: can the vehicle get from one pose to another, and how."""
+"""``floorfit route``: can the vehicle get from one pose to another, and how.
+
+Exit codes: 0 reachable (path given), 1 not reachable or a pose in collision (or the answer
+is inconclusive), 2 bad input, 3 not found within the search limits (differential and car
+vehicles: the holonomic analysis connects the poses, the drive search gave up).
+"""
 
 from __future__ import annotations
 
-from ._common import add_plan_arguments, load_plan_from_args, parse_pose, write_json_atomic
+from ._common import (
+    add_plan_arguments,
+    load_plan_from_args,
+    parse_pose,
+    write_json_atomic,
+)
 
 NAME = "route"
 HELP = "find a collision-free motion between two poses (x,y in metres, heading in degrees)"
 ORDER = 20
+
+#: Exit code when a drive search gives up within its limits.
+EXIT_NOT_FOUND_WITHIN_LIMITS = 3
+#: Segments listed one per line up to this many; longer paths get a count by type.
+MAX_LISTED_SEGMENTS = 12
 
 
 def add_arguments(p) -> None:
@@ -17,25 +32,63 @@ def add_arguments(p) -> None:
     p.add_argument("--heading-step", type=float, metavar="DEG",
                    help="uniform heading step in degrees (default: chosen from the vehicle size)")
     p.add_argument("--workers", type=int, default=1, metavar="N", help="processes for the slices (default 1)")
+    p.add_argument("--max-expansions", type=int, metavar="N",
+                   help="car search: node expansions before giving up (default 30000)")
+    p.add_argument("--time-limit", type=float, metavar="S",
+                   help="car search: seconds before giving up (default 30)")
     p.add_argument("--json", metavar="OUT.json", help="write the answer as JSON")
 
 
+def _limits(args):
+    from dataclasses import replace
+
+    from ..drive import DriveLimits
+    from ..errors import InputError
+
+    limits = DriveLimits()
+    if args.max_expansions is not None:
+        if args.max_expansions < 1:
+            raise InputError(f"must be a whole number ≥ 1, got {args.max_expansions}", None, "--max-expansions")
+        limits = replace(limits, max_expansions=args.max_expansions)
+    if args.time_limit is not None:
+        if not args.time_limit > 0:
+            raise InputError(f"must be a positive number of seconds, got {args.time_limit:g}", None, "--time-limit")
+        limits = replace(limits, time_limit_s=args.time_limit)
+    return limits
+
+
 def run(args) -> int:
-    from ..route import find_route
+    from ..route import NOT_FOUND_WITHIN_LIMITS, find_route
     from ..vehicle import load_vehicle
 
     start = parse_pose(args.start, "--start")
     goal = parse_pose(args.goal, "--goal")
+    limits = _limits(args)
     vehicle = load_vehicle(args.vehicle)
     plan = load_plan_from_args(args)
-    result = find_route(plan, vehicle, start, goal, heading_step_deg=args.heading_step, workers=args.workers)
+    result = find_route(plan, vehicle, start, goal, heading_step_deg=args.heading_step, workers=args.workers,
+                        limits=limits)
     data = result.to_dict()
     data["plan"] = str(args.plan)
     data["vehicle"] = vehicle.describe()
     if args.json:
         write_json_atomic(args.json, data)
     print(format_route(result, vehicle.name))
-    return 0 if result.reachable else 1
+    if result.reachable:
+        return 0
+    return EXIT_NOT_FOUND_WITHIN_LIMITS if result.status == NOT_FOUND_WITHIN_LIMITS else 1
+
+
+def format_segment(seg: dict) -> str:
+    """One line for a segment dict of :class:`floorfit.route.RouteResult` (metres, degrees)."""
+    if seg["type"] == "rotate":
+        a = seg["angle_deg"]
+        return f"rotate in place {a:+.1f}°" if abs(a) >= 0.95 else f"rotate in place {a:+.3f}°"
+    if seg["type"] == "straight":
+        return f"straight {seg['direction']} {seg['length_m']:.2f} m"
+    side = "left" if (seg["angle_deg"] > 0) == (seg["direction"] == "forward") else "right"
+    return (f"arc {seg['direction']} {seg['length_m']:.2f} m, centre on the {side}, heading {seg['angle_deg']:+.1f}°, "
+            f"radius {seg['radius_m']:.2f} m")
 
 
 def format_route(result, vehicle_name: str) -> str:
@@ -44,6 +97,17 @@ def format_route(result, vehicle_name: str) -> str:
     if result.reachable:
         lines.append(f"  {len(result.path)} waypoints, {result.length_m:.2f} m of travel, "
                      f"{result.rotation_deg:.0f}° of rotation")
+    if result.segments:
+        changes = result.direction_changes
+        lines.append(f"  {len(result.segments)} segment{'s' if len(result.segments) != 1 else ''}, "
+                     f"{changes} direction change{'s' if changes != 1 else ''} (forward/reverse)")
+        if len(result.segments) <= MAX_LISTED_SEGMENTS:
+            lines.extend(f"    {i}. {format_segment(s)}" for i, s in enumerate(result.segments, 1))
+        else:
+            counts: dict[str, int] = {}
+            for s in result.segments:
+                counts[s["type"]] = counts.get(s["type"], 0) + 1
+            lines.append("    " + ", ".join(f"{n} {t}" for t, n in sorted(counts.items())))
     if result.stuck:
         s = result.stuck
         lines.append(f"  gets no closer than {s['distance_to_goal_m']:.2f} m to the goal: "

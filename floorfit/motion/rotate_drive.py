@@ -125,6 +125,8 @@ def _lateral_shift(start, target, turn_total: float, reverse: bool) -> list[Segm
     dx, dy = target[0] - start[0], target[1] - start[1]
     c, s = math.cos(mid_heading), math.sin(mid_heading)
     along, side = c * dx + s * dy, -s * dx + c * dy
+    if not reverse and along < -_SAME_POINT_M:
+        return None  # the remaining drive would be backwards
     segs = [rotate(start, half)]
     if abs(side) > _SAME_POINT_M:
         if not reverse:
