@@ -27,6 +27,7 @@ from dataclasses import replace
 from typing import Callable
 
 import networkx as nx
+from networkx.utils import UnionFind
 import numpy as np
 import shapely
 import shapely.ops
@@ -162,13 +163,8 @@ class _Analysis:
         comps, comp_of, st_regions = self.regions(slices, G)
         min_area = 2.0 * self.vehicle.footprint.area
         seeds = self.seeds(slices, comps, st_regions, field, min_area)
-        group = {r: r for r in seeds}
-
-        def find(r):
-            while group[r] != r:
-                group[r] = group[group[r]]
-                r = group[r]
-            return r
+        group = UnionFind(seeds)
+        find = group.__getitem__
 
         ids = sorted(seeds)
         direction = {r: _mean_heading(slices, comps[r]) for r in ids}
@@ -179,7 +175,7 @@ class _Analysis:
                     continue
                 inter = geoms[ra].intersection(geoms[rb])
                 if not inter.is_empty and inter.area > 0.25 * min(geoms[ra].area, geoms[rb].area):
-                    group[find(rb)] = find(ra)
+                    group.union(ra, rb)
         places: dict[int, set] = {}
         place_seeds: dict[int, list] = {}
         for r in ids:
@@ -190,7 +186,7 @@ class _Analysis:
         pcomps = [set() for _ in range(len(comps))]
         for g, nodes in places.items():
             pcomps[g] = nodes
-        st_places = {n: sorted({find(r) for r in rs if r in group}) for n, rs in st_regions.items()}
+        st_places = {n: sorted({find(r) for r in rs if r in seeds}) for n, rs in st_regions.items()}
         events = join_events(field, pseeds, floor)
         return pcomps, comp_of, st_places, pseeds, events
 
@@ -239,21 +235,14 @@ def _cells_to_geometry(mask: np.ndarray, x0: float, y0: float, cell: float):
 
 def _sides_of_events(events, regions):
     """For each event, the member regions of each side at the time of the join."""
-    parent = {r: r for r in regions}
-    members = {r: {r} for r in regions}
-
-    def find(r):
-        while parent[r] != r:
-            parent[r] = parent[parent[r]]
-            r = parent[r]
-        return r
-
+    uf = UnionFind(regions)
     out = []
     for ev in events:
-        ra, rb = find(ev.a), find(ev.b)
-        out.append((set(members[ra]), set(members[rb])))
-        parent[rb] = ra
-        members[ra] |= members.pop(rb)
+        groups = {frozenset(g) for g in uf.to_sets()}
+        side_a = next(g for g in groups if ev.a in g)
+        side_b = next(g for g in groups if ev.b in g)
+        out.append((set(side_a), set(side_b)))
+        uf.union(ev.a, ev.b)
     return out
 
 

@@ -19,6 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import shapely
+from networkx.utils import UnionFind
 from scipy import ndimage
 
 __all__ = ["ClearanceField", "clearance_field", "JoinEvent", "join_events", "choose_cell_size"]
@@ -139,13 +140,8 @@ def join_events(field: ClearanceField, seeds: dict[int, np.ndarray], floor: floa
         return []
     seed_d = {r: dist[seeds[r][:, 0], seeds[r][:, 1]] for r in regions}
     top = max(float(np.max(v)) for v in seed_d.values())
-    parent = {r: r for r in regions}
-
-    def find(r):
-        while parent[r] != r:
-            parent[r] = parent[parent[r]]
-            r = parent[r]
-        return r
+    uf = UnionFind(regions)
+    find = uf.__getitem__
 
     events: list[JoinEvent] = []
     prev_lab = None
@@ -170,7 +166,7 @@ def join_events(field: ClearanceField, seeds: dict[int, np.ndarray], floor: floa
                 iy, ix, overlap = _join_cell(lab, prev_lab, L, mask, dist, t, seeds, roots[0], other, find,
                                              regions)
                 events.append(JoinEvent(float(t), roots[0], other, iy, ix, overlap))
-                parent[find(other)] = find(roots[0])
+                uf.union(roots[0], other)
         prev_lab = lab
         if len({find(r) for r in regions}) == 1:
             break
