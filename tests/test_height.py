@@ -83,3 +83,56 @@ mode = "differential"
     site = Site(**NO_CLEARANCE)
     assert run_check(plan, empty, st, site=site).reachable["IN"]["OUT"]
     assert not run_check(plan, loaded, st, site=site).reachable["IN"]["OUT"]
+
+
+def _corridor_dxf(path, *, conveyor_elevation_mm=None, thickness_mm=0.0, conveyor_layer="M-CONV"):
+    """A 12 × 2.5 m corridor in millimetres with a 0.6 m wide conveyor band across it (invented)."""
+    import ezdxf
+    doc = ezdxf.new("R2013")
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    msp.add_lwpolyline([(0, 0), (12000, 0), (12000, 2500), (0, 2500)], close=True, dxfattribs={"layer": "A-WALL"})
+    attribs = {"layer": conveyor_layer}
+    if conveyor_elevation_mm is not None:
+        attribs["elevation"] = conveyor_elevation_mm
+    if thickness_mm:
+        attribs["thickness"] = thickness_mm
+    msp.add_lwpolyline([(5700, 0), (6300, 0), (6300, 2500), (5700, 2500)], close=True, dxfattribs=attribs)
+    doc.saveas(path)
+
+
+def test_dxf_elevation_and_thickness_give_the_height_range(tmp_path):
+    plan_path = tmp_path / "corridor.dxf"
+    _corridor_dxf(plan_path, conveyor_elevation_mm=2100, thickness_mm=500)
+    plan = ff.load_plan(plan_path, roles={"M-CONV": "solid"})
+    (i,) = [k for k, layer in enumerate(plan.solid_layers) if layer == "M-CONV"]
+    assert plan.solid_heights[i].tolist() == pytest.approx([2.1, 2.6])
+    assert np.all(plan.wall_heights == [0.0, np.inf])       # flat walls block every height
+    site = Site(**NO_CLEARANCE)
+    tall = ff.rectangle_vehicle(1.2, 0.8, height_m=2.35)
+    short = ff.rectangle_vehicle(1.2, 0.8, height_m=0.4)
+    assert run_check(plan, short, STATIONS, site=site).reachable["IN"]["OUT"]
+    r = run_check(plan, tall, STATIONS, site=site)
+    (f,) = [f for f in r.findings if f.kind == "blocked"]
+    assert f.cause == "height" and "clear height 2.10 m, the vehicle needs 2.35 m" in f.summary
+
+
+def test_site_heights_apply_to_drawing_layers_on_the_command_line(tmp_path):
+    import json
+
+    from floorfit.cli import main
+    plan_path = tmp_path / "corridor.dxf"
+    _corridor_dxf(plan_path, conveyor_layer="M-CONV-OVHD")
+    site = tmp_path / "site.toml"
+    site.write_text('[layers]\n"M-CONV*" = "solid"\n[heights]\n"M-CONV*" = [2.1, 2.6]\n'
+                    '[clearance]\nreference = "none"\n'
+                    '[stations]\nIN = { x = 2.0, y = 1.25 }\nOUT = { x = 10.0, y = 1.25 }\n')
+    tall = tmp_path / "tall.toml"
+    tall.write_text('[footprint]\nwidth = 0.8\nlength = 1.2\nheight = 2.35\n')
+    out = tmp_path / "rep"
+    code = main(["check", str(plan_path), "--vehicle", str(tall), "--site", str(site), "--out", str(out),
+                 "--quiet", "--heading-step", "5"])
+    assert code == 1
+    data = json.loads((out / "findings.json").read_text())
+    (f,) = [f for f in data["findings"] if f["kind"] == "blocked"]
+    assert f["cause"] == "height" and f["clear_height_m"] == pytest.approx(2.1)

@@ -132,10 +132,25 @@ def _ring_polygon(ring: np.ndarray) -> list[shapely.Polygon]:
 
 def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set[int], leaves: set[int],
                     keep_leaves: bool, notes: Counter, mpu: float, tol_units: float):
-    """Linework paths and solid polygons in drawing units (world frame)."""
+    """Linework paths and solid polygons in drawing units (world frame), each with its
+    attributes (layer, bottom, top) in parallel lists ``wall_attrs`` / ``solid_attrs``."""
     walls: list[np.ndarray] = []
     solids: list[shapely.Polygon] = []
+    wall_attrs: list[tuple[str, float, float]] = []
+    solid_attrs: list[tuple[str, float, float]] = []
     pools: dict[tuple[int, str], list[shapely.LineString]] = {}
+    pool_z: dict[tuple[int, str], tuple[float, float]] = {}
+
+    def add_walls(items, attrs):
+        items = list(items)
+        walls.extend(items)
+        wall_attrs.extend([attrs] * len(items))
+
+    def add_solids(items, attrs):
+        items = list(items)
+        solids.extend(items)
+        solid_attrs.extend([attrs] * len(items))
+
     for i, p in enumerate(prims):
         if i in remove:
             continue
@@ -149,6 +164,7 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
         if role in ("door", "opening"):
             role = "wall"      # frames, windows and other lines on door layers stay obstacles
         paths = flat[i]
+        attrs = (p.layer, p.z0, p.z1)
         if p.kind == "fill":
             if p.dxftype in ("HATCH", "MPOLYGON"):
                 polys = [poly for ring in paths for poly in _ring_polygon(ring)]
@@ -162,20 +178,20 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
                 hrole, _ = hatch_policy(p.pattern, role, thickness)
                 notes[f"hatch-{hrole}"] += 1
                 if hrole == "solid":
-                    solids.extend(_polygons_of(merged))
+                    add_solids(_polygons_of(merged), attrs)
                 continue
             for ring in paths:
                 polys = _ring_polygon(ring)
                 if polys:
-                    solids.extend(polys)
+                    add_solids(polys, attrs)
                 else:
-                    walls.append(ring)
+                    add_walls([ring], attrs)
             continue
         if p.width > 0:
             for path in paths:
                 if len(path) >= 2:
                     band = shapely.LineString(path).buffer(p.width / 2.0, cap_style="flat", join_style="mitre")
-                    solids.extend(_polygons_of(band))
+                    add_solids(_polygons_of(band), attrs)
             notes["wide-polyline"] += 1
             continue
         if role == "solid":
@@ -183,14 +199,18 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
                 for ring in paths:
                     polys = _ring_polygon(ring)
                     if polys:
-                        solids.extend(polys)
+                        add_solids(polys, attrs)
                     else:
-                        walls.append(ring)
+                        add_walls([ring], attrs)
             else:
-                pools.setdefault((p.inst, p.layer), []).extend(shapely.LineString(x) for x in paths if len(x) >= 2)
+                key = (p.inst, p.layer)
+                pools.setdefault(key, []).extend(shapely.LineString(x) for x in paths if len(x) >= 2)
+                z0, z1 = pool_z.get(key, (math.inf, -math.inf))
+                pool_z[key] = (min(z0, p.z0), max(z1, p.z1))
             continue
-        walls.extend(paths)
-    for lines in pools.values():
+        add_walls(paths, attrs)
+    for key, lines in pools.items():
+        attrs = (key[1], *pool_z[key])
         try:
             # snap to a grid far below the chord tolerance so that arc ends meet exactly
             noded = shapely.union_all(shapely.set_precision(np.array(lines, dtype=object), tol_units / 100.0))
@@ -200,14 +220,15 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
             notes["solid-lines-no-face"] += len(lines)
             continue
         faces = [g for g in shapely.get_parts(polys) if g.area > 0]
-        solids.extend(faces)
+        add_solids(faces, attrs)
         for extra in (cuts, dangles, invalid):
             for g in shapely.get_parts(extra):
                 if not g.is_empty:
-                    walls.append(np.asarray(g.coords) if g.geom_type == "LineString" else np.asarray(g.exterior.coords))
+                    add_walls([np.asarray(g.coords) if g.geom_type == "LineString" else np.asarray(g.exterior.coords)],
+                              attrs)
         if not faces:
             notes["solid-lines-no-face"] += len(lines)
-    return walls, solids
+    return walls, solids, wall_attrs, solid_attrs
 
 
 def _flatten_all(prims: list[Prim], tol_units: float, issues: list[ImportIssue]) -> list[list[np.ndarray]]:
@@ -333,26 +354,33 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
     doors_found, remove, leaves = find_doors(prims, flat, walk.door_groups, mpu)
     notes: Counter = Counter()
     try:
-        wall_paths, solid_polys = _build_geometry(prims, flat, remove, leaves, keep_door_leaves, notes, mpu,
-                                                  tol_units)
+        wall_paths, solid_polys, wall_attrs, solid_attrs = _build_geometry(prims, flat, remove, leaves,
+                                                                           keep_door_leaves, notes, mpu, tol_units)
     except GEOSException as exc:
         raise PlanImportError(f"geometry could not be built ({exc})", name) from None
 
-    walls = _linestrings([w for w in wall_paths if len(w) >= 2])
+    keep = [i for i, w in enumerate(wall_paths) if len(w) >= 2]
+    walls = _linestrings([wall_paths[i] for i in keep])
+    w_attr = [wall_attrs[i] for i in keep]
     degenerate = 0
     if len(walls):
         lengths = shapely.length(walls)
         degenerate = int(np.sum(lengths <= 0))
+        w_attr = [a for a, ok in zip(w_attr, lengths > 0) if ok]
         walls = walls[lengths > 0]
     solids = np.asarray(solid_polys, dtype=object).reshape(-1)
+    s_attr = list(solid_attrs)
     if window is not None:
         x0, y0, x1, y1 = window
         if len(walls):
-            walls = shapely.get_parts(shapely.clip_by_rect(walls, x0, y0, x1, y1))
-            walls = walls[~shapely.is_empty(walls) & (shapely.get_type_id(walls) == 1)]
+            parts, src = shapely.get_parts(shapely.clip_by_rect(walls, x0, y0, x1, y1), return_index=True)
+            ok = ~shapely.is_empty(parts) & (shapely.get_type_id(parts) == 1)
+            walls, w_attr = parts[ok], [w_attr[i] for i in src[ok]]
         if len(solids):
             clipped = shapely.intersection(solids, shapely.box(x0, y0, x1, y1))
-            solids = np.array([g for c in clipped for g in _polygons_of(c)], dtype=object)
+            pairs = [(g, s_attr[i]) for i, c in enumerate(clipped) for g in _polygons_of(c)]
+            solids = np.array([g for g, _ in pairs], dtype=object)
+            s_attr = [a for _, a in pairs]
         doors_found = [d for d in doors_found if x0 <= d.x <= x1 and y0 <= d.y <= y1]
     if degenerate:
         issues.append(ImportIssue("skipped", f"{degenerate} zero-length line(s) dropped"))
@@ -437,7 +465,14 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
         release = acad_release.get(doc.dxfversion)
     except Exception:
         pass
+    def heights(attrs):
+        z = np.array([(a[1], a[2]) for a in attrs], dtype=float).reshape(-1, 2) * mpu
+        return np.where(np.isfinite(z), z, np.inf)
+
     plan = Plan(walls=walls_m, solids=solids_m, origin=(float(origin_m[0]), float(origin_m[1])), source=name,
+                wall_layers=np.array([a[0] for a in w_attr], dtype=object),
+                solid_layers=np.array([a[0] for a in s_attr], dtype=object),
+                wall_heights=heights(w_attr), solid_heights=heights(s_attr),
                 units=decision.name, metres_per_unit=mpu, unit_reason=decision.reason,
                 curve_tolerance_m=curve_tolerance_m, doors=doorways, labels=labels, layers=layer_infos,
                 issues=issues, dxf_version=doc.dxfversion)

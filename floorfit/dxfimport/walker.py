@@ -86,6 +86,8 @@ class Prim:
     curve: Callable[[float], list[np.ndarray]] | None = None   # tol (drawing units) -> paths
     coarse: np.ndarray | None = None              # rough points for extents / windows
     pattern: str = ""                             # hatch pattern name ("SOLID" for solid fill)
+    z0: float = 0.0                               # height range, drawing units: bottom ...
+    z1: float = math.inf                          # ... and top (inf: a flat 2-D entity blocks all heights)
 
     def paths(self, tol: float) -> list[np.ndarray]:
         """World paths (drawing units) flattened with chord error ≤ ``tol``."""
@@ -196,6 +198,7 @@ class _Walker:
                  layer_patterns: list[str] | None):
         self.doc = doc
         self.path = path
+        self._entity = None          # the entity being visited (for its height range)
         self.resolver = resolver
         self.limits = limits
         self.patterns = [p.lower() for p in layer_patterns] if layer_patterns else None
@@ -289,6 +292,7 @@ class _Walker:
         return self.out
 
     def visit(self, e, ctx: _Ctx) -> None:
+        self._entity = e
         dxftype = e.dxftype()
         try:
             handle = e.dxf.get("handle", "?")
@@ -337,8 +341,52 @@ class _Walker:
                                     handle, layer))
 
     def new_prim(self, kind, layer, role, dxftype, where, handle, ctx, **kw) -> Prim:
+        z0, z1 = self.z_range(self._entity, ctx)
         return Prim(kind=kind, layer=layer, role=role, dxftype=dxftype, where=where, handle=handle,
-                    top=ctx.top, group=ctx.group if role == "door-block" else -1, inst=ctx.inst, **kw)
+                    top=ctx.top, group=ctx.group if role == "door-block" else -1, inst=ctx.inst,
+                    z0=z0, z1=z1, **kw)
+
+    def z_range(self, e, ctx: _Ctx) -> tuple[float, float]:
+        """Height range (bottom, top) of an entity in world z, drawing units.
+
+        From its elevation and thickness (DXF group 39, extruded along the entity's normal,
+        possibly negative). A flat entity at elevation 0 with no thickness is a plain 2-D
+        plan entity: (0, inf), an obstacle at every height. A flat entity above the floor
+        (elevation > 0, no thickness) is taken as an overhead object: (z, inf).
+        """
+        if e is None:
+            return 0.0, math.inf
+        try:
+            dxf = e.dxf
+            thickness = float(dxf.get("thickness", 0.0) or 0.0)
+            kind = e.dxftype()
+            if kind == "LINE":
+                base = Vec3(dxf.start)
+            elif kind in ("CIRCLE", "ARC", "ELLIPSE"):
+                base = Vec3(dxf.center)
+            elif kind == "LWPOLYLINE":
+                base = Vec3(0, 0, float(dxf.get("elevation", 0.0) or 0.0))
+            elif kind in ("POLYLINE", "HATCH", "MPOLYGON"):
+                base = Vec3(dxf.get("elevation", (0, 0, 0)))
+            elif kind in ("SOLID", "TRACE", "3DFACE"):
+                base = Vec3(dxf.vtx0)
+            else:
+                base = Vec3(0, 0, 0)
+            normal = Vec3(dxf.get("extrusion", (0, 0, 1)))
+            if kind in ("CIRCLE", "ARC", "LWPOLYLINE", "POLYLINE", "HATCH", "MPOLYGON", "SOLID", "TRACE"):
+                base = e.ocs().to_wcs(base)
+            top = base + normal.normalize() * thickness if thickness else base
+            m = ctx.m
+            za = float(np.dot(np.array(base.xyz), m[:3, 2]) + m[3, 2])
+            zb = float(np.dot(np.array(top.xyz), m[:3, 2]) + m[3, 2])
+        except Exception:
+            return 0.0, math.inf
+        if not (math.isfinite(za) and math.isfinite(zb)):
+            return 0.0, math.inf
+        lo, hi = min(za, zb), max(za, zb)
+        if thickness == 0:
+            return (0.0, math.inf) if abs(lo) < 1e-12 else (lo, math.inf)
+        return lo, hi
 
     def effective_role(self, role: str, ctx: _Ctx) -> str:
         return "door-block" if ctx.forced == "door" else role
