@@ -31,6 +31,7 @@ from matplotlib.patches import Circle, Patch, PathPatch, Rectangle
 from matplotlib.path import Path
 from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
+from .geometry import parts
 from .kinds import kind_style, numbered_findings, plain_text
 
 __all__ = [
@@ -76,14 +77,7 @@ class FigureImage:
 
 
 # -- geometry helpers -------------------------------------------------------------------
-def _parts(geom: Any) -> Iterable[Any]:
-    if geom is None or geom.is_empty:
-        return
-    if hasattr(geom, "geoms"):
-        for g in geom.geoms:
-            yield from _parts(g)
-    else:
-        yield geom
+_parts = parts
 
 
 def _polygon_path(geoms: Iterable[Any], shift: np.ndarray) -> Path | None:

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import io
 import math
-from typing import Any, Iterable
+from typing import Any
 
 import ezdxf
 import numpy as np
@@ -21,6 +21,7 @@ import shapely
 from ezdxf.enums import TextEntityAlignment
 from ezdxf.units import METER_FACTOR, decode as unit_symbol
 
+from .geometry import parts
 from .. import __version__
 from ..errors import InputError
 from .kinds import KIND_STYLES, kind_style, numbered_findings, plain_text
@@ -96,14 +97,7 @@ class _Frame:
         return metres / self.mpu
 
 
-def _parts(geom: Any) -> Iterable[Any]:
-    if geom is None or geom.is_empty:
-        return
-    if hasattr(geom, "geoms"):
-        for g in geom.geoms:
-            yield from _parts(g)
-    else:
-        yield geom
+_parts = parts
 
 
 def _add_geometry(msp: Any, geom: Any, frame: _Frame, area_layer: str, line_layer: str) -> None:
