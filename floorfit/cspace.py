@@ -68,12 +68,19 @@ BOUNDS = ("sound", "optimistic")
 
 
 def obstacles_for(plan: Plan, vehicle: Vehicle | None = None) -> ObstacleSet:
-    """Heading-independent obstacle preparation for ``plan`` (the vehicle may filter by height)."""
+    """Heading-independent obstacle preparation for ``plan``.
+
+    An obstacle counts where its height range (bottom, top) overlaps the vehicle's
+    (0, height): bottom < height and top > 0. Without a vehicle height every obstacle
+    reaching above the floor counts.
+    """
     walls, solids = plan.walls, plan.solids
     height = getattr(vehicle, "height_m", None) if vehicle is not None else None
-    if height is not None:
-        walls = walls[plan.wall_heights[:, 0] < height] if len(walls) else walls
-        solids = solids[plan.solid_heights[:, 0] < height] if len(solids) else solids
+    h = np.inf if height is None else height
+    if len(walls):
+        walls = walls[(plan.wall_heights[:, 0] < h) & (plan.wall_heights[:, 1] > 0)]
+    if len(solids):
+        solids = solids[(plan.solid_heights[:, 0] < h) & (plan.solid_heights[:, 1] > 0)]
     return prepare_obstacles(walls, solids)
 
 
