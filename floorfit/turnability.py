@@ -4,8 +4,9 @@
   hold that point in their free space (sound bound). The count is the map of the
   plane-times-circle configuration space; "all slices" means the vehicle can spin fully
   in place there.
-* ``turn_region``: where the centre of the footprint's smallest enclosing circle (radius
-  ρ_min) can sit with that circle clear of obstacles. There the vehicle can reverse its
+* ``turn_region``: where the centre of a turning circle (radius ρ_min; for most modes the
+  footprint's smallest enclosing circle, see :func:`floorfit.maneuvers.turnaround_circle`)
+  can sit with that circle clear of obstacles. There the vehicle can reverse its
   heading by rotating about that centre: directly for an omnidirectional base, with short
   back-and-forth manoeuvres for a differential one (small-time local controllability;
   Laumond et al., IEEE T-RA 10(5), 1994). For a rectangle l × w, 2ρ_min = √(l² + w²), the
@@ -26,7 +27,7 @@ from .cspace import SliceSet
 from .minkowski import ObstacleSet, cobstacle_pieces
 from .raster import fill_polygons
 
-__all__ = ["HeadingRaster", "heading_raster", "turning_circle", "turn_region", "heading_ranges"]
+__all__ = ["HeadingRaster", "heading_raster", "turn_region", "heading_ranges"]
 
 
 @dataclass
@@ -67,13 +68,6 @@ def heading_raster(slices: SliceSet, bounds, cell: float) -> HeadingRaster:
         if len(comps):
             free[k] = fill_polygons(comps, x0, y0, cell, nx, ny)
     return HeadingRaster(x0, y0, cell, free, slices.cells.headings.copy())
-
-
-def turning_circle(footprint: Polygon) -> tuple[np.ndarray, float]:
-    """Centre (vehicle frame) and radius (m) of the footprint's smallest enclosing circle."""
-    radius = float(shapely.minimum_bounding_radius(footprint))
-    centre = shapely.minimum_bounding_circle(footprint).centroid
-    return np.array([centre.x, centre.y]), radius
 
 
 def turn_region(obstacles: ObstacleSet, domain: Polygon, radius: float, sides: int = 64):
