@@ -12,7 +12,6 @@ from __future__ import annotations
 import math
 
 import networkx as nx
-import numpy as np
 import shapely
 
 from .cspace import SliceSet

@@ -60,8 +60,6 @@ def heading_raster(slices: SliceSet, bounds, cell: float) -> HeadingRaster:
     x0, y0, x1, y1 = bounds
     nx = max(1, int(math.ceil((x1 - x0) / cell)))
     ny = max(1, int(math.ceil((y1 - y0) / cell)))
-    xs = x0 + (np.arange(nx) + 0.5) * cell
-    ys = y0 + (np.arange(ny) + 0.5) * cell
     free = np.zeros((len(slices), ny, nx), dtype=bool)
     for k in range(len(slices)):
         comps = slices.components[k]
