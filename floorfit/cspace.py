@@ -55,7 +55,7 @@ try:                                   # integer polygon clipping (Vatti); the G
 except ImportError:                    # pragma: no cover - depends on the installation
     pyclipper = None
 
-__all__ = ["SliceSet", "build_slices", "choose_headings", "obstacles_for", "obstacle_clusters",
+__all__ = ["SliceSet", "build_slices", "choose_headings", "obstacles_for", "obstacles_met", "obstacle_clusters",
            "SliceRecipe", "slice_recipe", "slice_domain", "cluster_reach_m", "run_slice_jobs", "slice_cobstacle",
            "slice_free", "free_components", "canonical_order", "union_polygons", "UNION_BACKEND", "CLIP_SCALE", "CLIP_GUARD_M",
            "MIN_COMPONENT_AREA_M2", "DOMAIN_PAD_M", "BOUNDS"]
@@ -74,6 +74,11 @@ def obstacles_for(plan: Plan, vehicle: Vehicle | None = None) -> ObstacleSet:
     (0, height): bottom < height and top > 0. Without a vehicle height every obstacle
     reaching above the floor counts.
     """
+    return prepare_obstacles(*obstacles_met(plan, vehicle))
+
+
+def obstacles_met(plan: Plan, vehicle: Vehicle | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """The walls and solids of ``plan`` that count for ``vehicle`` (see :func:`obstacles_for`), local frame."""
     walls, solids = plan.walls, plan.solids
     height = getattr(vehicle, "height_m", None) if vehicle is not None else None
     h = np.inf if height is None else height
@@ -81,7 +86,7 @@ def obstacles_for(plan: Plan, vehicle: Vehicle | None = None) -> ObstacleSet:
         walls = walls[(plan.wall_heights[:, 0] < h) & (plan.wall_heights[:, 1] > 0)]
     if len(solids):
         solids = solids[(plan.solid_heights[:, 0] < h) & (plan.solid_heights[:, 1] > 0)]
-    return prepare_obstacles(walls, solids)
+    return walls, solids
 
 
 def choose_headings(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None = None,

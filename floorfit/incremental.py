@@ -30,7 +30,7 @@ import shapely
 from shapely.geometry import Polygon, box
 
 from .cspace import SliceSet, build_slices, canonical_order, cluster_reach_m, free_components, obstacle_clusters, \
-    slice_domain, slice_free, slice_recipe, union_polygons
+    obstacles_met, slice_domain, slice_free, slice_recipe, union_polygons
 from .minkowski import ObstacleSet, prepare_obstacles
 from .plan import Plan
 
@@ -85,20 +85,10 @@ def _window(boxes: list[tuple[float, float, float, float]], grow: float) -> Poly
     return shapely.union_all(grown) if grown else Polygon()
 
 
-def _height_filtered(plan: Plan, vehicle) -> tuple[np.ndarray, np.ndarray]:
-    """Walls and solids the vehicle meets (as :func:`floorfit.cspace.obstacles_for` selects them)."""
-    walls, solids = plan.walls, plan.solids
-    height = getattr(vehicle, "height_m", None)
-    if height is not None:
-        walls = walls[plan.wall_heights[:, 0] < height] if len(walls) else walls
-        solids = solids[plan.solid_heights[:, 0] < height] if len(solids) else solids
-    return walls, solids
-
-
 def _local_obstacles(plan: Plan, vehicle, window, reach: float) -> ObstacleSet:
     """Obstacles of ``plan`` within ``reach`` metres of ``window``, prepared as for a full build."""
     pick = []
-    for geoms in _height_filtered(plan, vehicle):
+    for geoms in obstacles_met(plan, vehicle):
         if len(geoms):
             idx = shapely.STRtree(geoms).query(window, predicate="dwithin", distance=reach)
             pick.append(geoms[np.unique(idx)])
@@ -109,7 +99,7 @@ def _local_obstacles(plan: Plan, vehicle, window, reach: float) -> ObstacleSet:
 
 def obstacles_bounds(plan: Plan, vehicle) -> tuple[float, float, float, float]:
     """Bounds (local frame, metres) of the obstacles the vehicle meets, as the slice domain uses them."""
-    walls, solids = _height_filtered(plan, vehicle)
+    walls, solids = obstacles_met(plan, vehicle)
     allg = np.concatenate([walls, solids]) if len(solids) else walls
     if not len(allg):
         return (0.0, 0.0, 0.0, 0.0)
