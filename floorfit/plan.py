@@ -209,5 +209,6 @@ class Plan:
         if len(self.walls):
             n += int(np.sum(shapely.get_num_coordinates(self.walls) - 1))
         if len(self.solids):
-            n += int(np.sum(shapely.get_num_coordinates(self.solids))) - 2 * len(self.solids)
+            rings = shapely.get_rings(self.solids)          # exteriors and holes
+            n += int(np.sum(shapely.get_num_coordinates(rings) - 1))
         return n
