@@ -57,8 +57,8 @@ except ImportError:                    # pragma: no cover - depends on the insta
 
 __all__ = ["SliceSet", "build_slices", "choose_headings", "obstacles_for", "obstacles_met", "obstacle_clusters",
            "SliceRecipe", "slice_recipe", "slice_domain", "cluster_reach_m", "run_slice_jobs", "slice_cobstacle",
-           "slice_free", "free_components", "canonical_order", "union_polygons", "UNION_BACKEND", "CLIP_SCALE", "CLIP_GUARD_M",
-           "MIN_COMPONENT_AREA_M2", "DOMAIN_PAD_M", "BOUNDS"]
+           "slice_free", "free_components", "canonical_order", "union_polygons", "UNION_BACKEND", "CLIP_SCALE",
+           "CLIP_GUARD_M", "MIN_COMPONENT_AREA_M2", "DOMAIN_PAD_M", "BOUNDS"]
 
 #: Free-space components smaller than this are dropped, square metres.
 MIN_COMPONENT_AREA_M2 = 1e-6
@@ -187,7 +187,7 @@ def canonical_order(comps: np.ndarray) -> np.ndarray:
 
 
 def free_components(free) -> np.ndarray:
-    """Polygon components of a free-space geometry, dropping those under ``MIN_COMPONENT_AREA_M2``, in canonical order."""
+    """Polygon components of a free geometry (canonical order), without those under ``MIN_COMPONENT_AREA_M2``."""
     comps = shapely.get_parts(free)
     comps = comps[shapely.get_type_id(comps) == 3] if len(comps) else comps
     if len(comps):
