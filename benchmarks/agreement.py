@@ -34,7 +34,7 @@ RESULTS = ROOT / "benchmarks" / "results"
 
 
 def _reach(slices, stations_local: dict) -> dict:
-    from floorfit.roadmap import build_roadmap
+    from floorfit.cspace.roadmap import build_roadmap
     G = build_roadmap(slices)
     comp = {n: i for i, c in enumerate(nx.connected_components(G)) for n in c}
     where = {}
@@ -69,10 +69,10 @@ def _match_findings(fa, fb, tol: float) -> dict:
 
 def run_case(size: str, fp: str, check: bool) -> dict:
     import floorfit
-    from floorfit import cspace
-    from floorfit.check import run_check
-    from floorfit.headings import HeadingCells, make_heading_cells
-    from floorfit.site import read_site
+    from floorfit.cspace import slices as cspace
+    from floorfit.analysis.check import run_check
+    from floorfit.cspace.headings import HeadingCells, make_heading_cells
+    from floorfit.plan.site import read_site
 
     sys.path.insert(0, str(ROOT / "tests"))
     from test_perf_agreement import reference_slices  # the plain construction kept in the tests
@@ -133,7 +133,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--check-sizes", default="small,medium", help="sizes on which the whole check is compared")
     ap.add_argument("--json", default=str(RESULTS / "agreement.json"))
     args = ap.parse_args(argv)
-    from floorfit import cspace
+    from floorfit.cspace import slices as cspace
     if cspace.pyclipper is None:
         print("pyclipper is not installed: there is only one path to compare")
         return 0

@@ -8,7 +8,7 @@ Run in its own process so that its peak memory is its own. Measures, on the
   heading is the one-process total divided by 72;
 * the roadmap build, and the prototype of a roadmap without overlap geometries
   (:mod:`benchmarks.prototypes`);
-* a layout comparison: one rack row moved; :func:`floorfit.incremental.update_slices`
+* a layout comparison: one rack row moved; :func:`floorfit.cspace.incremental.update_slices`
   against a full rebuild of the moved plan (one process each), and the largest
   symmetric difference of their free space over all slices (m²);
 * the brute-force baseline's time per pose on a random sample of poses.
@@ -32,11 +32,11 @@ def main(argv: list[str]) -> int:
     import shapely
 
     import floorfit
-    from floorfit.cspace import build_slices, obstacles_for
-    from floorfit.headings import make_heading_cells
-    from floorfit.incremental import update_slices
-    from floorfit.roadmap import build_roadmap
-    from floorfit.site import read_site
+    from floorfit.cspace.slices import build_slices, obstacles_for
+    from floorfit.cspace.headings import make_heading_cells
+    from floorfit.cspace.incremental import update_slices
+    from floorfit.cspace.roadmap import build_roadmap
+    from floorfit.plan.site import read_site
 
     from .baseline import brute_force_seconds_per_pose, grid_pose_count
     from .prototypes import roadmap_edges_fast

@@ -16,7 +16,7 @@ def main(argv: list[str]) -> int:
     t0 = time.perf_counter()
     args = json.loads(open(argv[0], encoding="utf-8").read())
     import floorfit
-    from floorfit.site import read_site
+    from floorfit.plan.site import read_site
     t_import = time.perf_counter()
     site = read_site(args["site"])
     plan = floorfit.load_plan(args["plan"], roles=site.roles)

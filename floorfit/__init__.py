@@ -19,22 +19,22 @@ import importlib
 __version__ = "0.1.0"
 
 _LAZY = {
-    "Plan": "floorfit.plan",
-    "load_plan": "floorfit.dxfimport",
-    "Vehicle": "floorfit.vehicle",
-    "load_vehicle": "floorfit.vehicle",
-    "rectangle_vehicle": "floorfit.vehicle",
-    "vehicle_from_outline": "floorfit.vehicle",
-    "SliceSet": "floorfit.cspace",
-    "build_slices": "floorfit.cspace",
-    "build_roadmap": "floorfit.roadmap",
-    "find_route": "floorfit.route",
-    "RouteResult": "floorfit.route",
-    "run_check": "floorfit.check",
+    "Plan": "floorfit.plan.model",
+    "load_plan": "floorfit.plan.dxf",
+    "Vehicle": "floorfit.vehicles.rigid",
+    "load_vehicle": "floorfit.vehicles.rigid",
+    "rectangle_vehicle": "floorfit.vehicles.rigid",
+    "vehicle_from_outline": "floorfit.vehicles.rigid",
+    "SliceSet": "floorfit.cspace.slices",
+    "build_slices": "floorfit.cspace.slices",
+    "build_roadmap": "floorfit.cspace.roadmap",
+    "find_route": "floorfit.motion.route_query",
+    "RouteResult": "floorfit.motion.route_query",
+    "run_check": "floorfit.analysis.check",
     "FloorfitError": "floorfit.errors",
-    "DriveLimits": "floorfit.drive",
-    "size_vehicle": "floorfit.sizing",
-    "compare_layouts": "floorfit.compare",
+    "DriveLimits": "floorfit.motion.drivable",
+    "size_vehicle": "floorfit.analysis.sizing",
+    "compare_layouts": "floorfit.analysis.compare",
 }
 
 __all__ = sorted(_LAZY) + ["__version__"]

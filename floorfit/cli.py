@@ -13,8 +13,8 @@ import importlib
 import pkgutil
 import sys
 
-from . import __version__
-from .errors import FloorfitError
+from floorfit import __version__
+from floorfit.errors import FloorfitError
 
 __all__ = ["main", "build_parser"]
 
@@ -22,7 +22,7 @@ EXIT_OK, EXIT_FAIL, EXIT_BAD_INPUT = 0, 1, 2
 
 
 def _command_modules():
-    from . import commands
+    from floorfit import commands
     mods = []
     for info in sorted(pkgutil.iter_modules(commands.__path__), key=lambda m: m.name):
         if info.name.startswith("_"):

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .collision import PoseChecker, sample_motion
+from floorfit.cspace.collision import PoseChecker, sample_motion
 
 __all__ = ["path_clearance", "assert_path_clear"]
 

@@ -13,7 +13,7 @@ import tomllib
 from pathlib import Path
 from typing import Any, Iterable
 
-from .errors import FloorfitError
+from floorfit.errors import FloorfitError
 
 __all__ = ["read_toml", "check_keys", "get_number", "get_string", "get_bool", "get_points"]
 

@@ -18,7 +18,7 @@ from floorfit.articulated import (
 )
 from floorfit.motion.segments import arc, rotate, straight
 from floorfit.motion.swept import swept_annulus
-from floorfit.vehicle import rectangle_vehicle
+from floorfit.vehicles.rigid import rectangle_vehicle
 
 TRACTOR = rectangle_vehicle(0.8, 0.6, reference_to_front=0.5, mode="differential", name="tug")
 CART = [(-0.45, -0.35), (0.75, -0.35), (0.75, 0.35), (-0.45, 0.35)]
@@ -126,7 +126,7 @@ def test_jack_knife_limit():
     train = on_axle(1.5, limit=40.0)
     assert jack_knife_radius(train) == pytest.approx(1.5 / math.sin(math.radians(40.0)), abs=1e-12)
     from floorfit.articulated import TrainChecker, judge_motion
-    from floorfit.plan import Plan
+    from floorfit.plan.model import Plan
     empty = Plan.from_geometries()
     checker = TrainChecker(empty, train, 0.02)
     tight = judge_motion(checker, follow([arc((0, 0, 0), 30.0, 1, 2.0)], train))     # asin(1.5/2) = 48.6

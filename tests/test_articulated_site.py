@@ -19,15 +19,15 @@ from floorfit.articulated import (
     turn_circle,
     turnaround_region,
 )
-from floorfit.check import run_check
+from floorfit.analysis.check import run_check
 from floorfit.cli import main
-from floorfit.findings import Station
+from floorfit.analysis.findings import Station
 from floorfit.motion.segments import arc
 from floorfit.motion.swept import swept_annulus
-from floorfit.plan import Plan
-from floorfit.route import find_route
-from floorfit.site import Site
-from floorfit.vehicle import rectangle_vehicle
+from floorfit.plan.model import Plan
+from floorfit.motion.route_query import find_route
+from floorfit.plan.site import Site
+from floorfit.vehicles.rigid import rectangle_vehicle
 
 OX, OY = 100.0, 200.0          # drawing-frame offset: positions reported must come back in this frame
 TRACTOR = rectangle_vehicle(0.8, 0.6, reference_to_front=0.5, mode="differential", name="tug", margin=0.02)

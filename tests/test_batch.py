@@ -8,9 +8,9 @@ import sys
 import ezdxf
 import pytest
 
-from floorfit.batch import read_manifest, run_batch
+from floorfit.fleet.batch import read_manifest, run_batch
 from floorfit.cli import main
-from floorfit.dxfimport.importer import DEFAULT_CURVE_TOLERANCE_M
+from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M
 from floorfit.errors import InputError
 
 HEIGHT, WALL_T = 4.0, 0.2

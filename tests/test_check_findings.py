@@ -8,10 +8,10 @@ import shapely
 from shapely.geometry import LineString, Polygon
 
 import floorfit as ff
-from floorfit.check import run_check
-from floorfit.findings import Station
-from floorfit.plan import Doorway, Label, Plan
-from floorfit.site import Site
+from floorfit.analysis.check import run_check
+from floorfit.analysis.findings import Station
+from floorfit.plan.model import Doorway, Label, Plan
+from floorfit.plan.site import Site
 
 
 def two_rooms(door_width: float, wall_t: float = 0.2) -> Plan:

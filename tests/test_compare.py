@@ -9,12 +9,12 @@ import pytest
 import shapely
 
 import floorfit as ff
-from floorfit.check import run_check
+from floorfit.analysis.check import run_check
 from floorfit.cli import main
-from floorfit.compare import compare_layouts, compare_results, match_findings
-from floorfit.findings import Finding, Station
-from floorfit.plan import Plan
-from floorfit.site import Site
+from floorfit.analysis.compare import compare_layouts, compare_results, match_findings
+from floorfit.analysis.findings import Finding, Station
+from floorfit.plan.model import Plan
+from floorfit.plan.site import Site
 
 ROOM, WALL_T, HEIGHT = 5.0, 0.2, 4.0
 NO_CLEARANCE = Site(required_clearance_m=0.0, clearance_reference="none")

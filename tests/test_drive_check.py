@@ -1,8 +1,8 @@
-"""The sampled motion check against the sound slices (floorfit.drive.SliceMotionCheck).
+"""The sampled motion check against the sound slices (floorfit.motion.drivable.SliceMotionCheck).
 
 Soundness and the stated tolerance are tested against brute force: the footprint placed
 at dense poses of the true motion (2 mm, 0.1°) and measured against the obstacles
-directly (floorfit.collision.PoseChecker). Small plan, 5° slices: fast on 2 cores.
+directly (floorfit.cspace.collision.PoseChecker). Small plan, 5° slices: fast on 2 cores.
 """
 
 import math
@@ -14,9 +14,9 @@ import shapely.affinity
 from shapely.geometry import Polygon, box
 
 import floorfit as ff
-from floorfit.collision import PoseChecker, sample_motion
-from floorfit.cspace import build_slices
-from floorfit.drive import (
+from floorfit.cspace.collision import PoseChecker, sample_motion
+from floorfit.cspace.slices import build_slices
+from floorfit.motion.drivable import (
     DriveLimits,
     SliceMotionCheck,
     chord_error_m,
@@ -25,7 +25,7 @@ from floorfit.drive import (
 )
 from floorfit.errors import InputError
 from floorfit.motion import arc, rotate, rotate_and_drive, sample, straight
-from floorfit.plan import Plan
+from floorfit.plan.model import Plan
 
 ARC_R = 1.0
 

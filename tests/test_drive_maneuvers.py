@@ -1,4 +1,4 @@
-"""Maneuver findings, swept routes and turn-around circles for the site check (floorfit.maneuvers).
+"""Maneuver findings, swept routes and turn-around circles for the site check (floorfit.analysis.maneuvers).
 
 Small L-shaped corridors and 5° slices keep these fast on shared 2-core machines.
 """
@@ -11,19 +11,19 @@ import shapely
 from shapely.geometry import Polygon
 
 import floorfit as ff
-from floorfit.collision import place_footprint
-from floorfit.cspace import build_slices, choose_headings
+from floorfit.cspace.collision import place_footprint
+from floorfit.cspace.slices import build_slices, choose_headings
 from floorfit.errors import SiteError
-from floorfit.findings import Station
-from floorfit.maneuvers import (
+from floorfit.analysis.findings import Station
+from floorfit.analysis.maneuvers import (
     maneuver_findings,
     route_sweeps,
     swept_area,
     turnaround_circle,
 )
 from floorfit.motion import sample, swept_annulus
-from floorfit.plan import Plan
-from floorfit.roadmap import build_roadmap
+from floorfit.plan.model import Plan
+from floorfit.cspace.roadmap import build_roadmap
 from floorfit.testing import assert_path_clear
 
 ARM = 12.0

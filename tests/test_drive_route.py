@@ -17,11 +17,11 @@ from shapely.geometry import Polygon, box
 
 import floorfit as ff
 from floorfit.cli import main
-from floorfit.cspace import build_slices
-from floorfit.drive import DriveLimits
-from floorfit.headings import arc_deg
+from floorfit.cspace.slices import build_slices
+from floorfit.motion.drivable import DriveLimits
+from floorfit.cspace.headings import arc_deg
 from floorfit.motion import swept_annulus
-from floorfit.plan import Plan
+from floorfit.plan.model import Plan
 from floorfit.testing import assert_path_clear
 
 ORIGIN = (1000.0, 2000.0)     # a drawing far from 0: every test also exercises the frames

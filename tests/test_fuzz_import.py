@@ -20,7 +20,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from floorfit.dxfimport import load_plan
+from floorfit.plan.dxf import load_plan
 from floorfit.errors import FloorfitError
 
 HERE = Path(__file__).parent

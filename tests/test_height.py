@@ -5,10 +5,10 @@ import pytest
 import shapely
 
 import floorfit as ff
-from floorfit.check import run_check
-from floorfit.findings import Station
-from floorfit.plan import Plan
-from floorfit.site import Site, apply_height_ranges, read_site
+from floorfit.analysis.check import run_check
+from floorfit.analysis.findings import Station
+from floorfit.plan.model import Plan
+from floorfit.plan.site import Site, apply_height_ranges, read_site
 
 NO_CLEARANCE = dict(required_clearance_m=0.0, clearance_reference="none")
 

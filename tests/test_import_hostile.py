@@ -9,7 +9,7 @@ import time
 import pytest
 
 import dxf_fixtures as F
-from floorfit.dxfimport import ImportLimits, load_plan
+from floorfit.plan.dxf import ImportLimits, load_plan
 from floorfit.errors import LimitExceeded, PlanImportError
 
 

@@ -14,7 +14,7 @@ import pytest
 import shapely
 
 import dxf_fixtures as F
-from floorfit.dxfimport import load_plan
+from floorfit.plan.dxf import load_plan
 
 pyogrio = pytest.importorskip("pyogrio")
 

@@ -11,10 +11,10 @@ import pytest
 import shapely
 
 import dxf_fixtures as F
-from floorfit.dxfimport import outline_from_dxf
-from floorfit.dxfimport.outline import OUTLINE_TOLERANCE_M
+from floorfit.plan.dxf import outline_from_dxf
+from floorfit.plan.dxf.outline import OUTLINE_TOLERANCE_M
 from floorfit.errors import VehicleError
-from floorfit.vda5050 import outline_from_factsheet
+from floorfit.vehicles.factsheet import outline_from_factsheet
 
 
 @pytest.mark.parametrize("unit", F.UNITS)

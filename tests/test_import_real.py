@@ -14,8 +14,8 @@ from pathlib import Path
 
 import pytest
 
-from floorfit.dxfimport.importer import import_drawing
-from floorfit.dxfimport.report import report_from_result
+from floorfit.plan.dxf.importer import import_drawing
+from floorfit.plan.dxf.report import report_from_result
 
 PLANS = Path(__file__).parents[2] / "shared" / "plans-real"
 pytestmark = pytest.mark.skipif(not PLANS.is_dir(), reason=f"real drawings not found at {PLANS}")
@@ -78,7 +78,7 @@ def test_1_clean_metre_plan_layers_roles_and_eight_swing_doors():
 
 
 def test_1_flooring_grid_is_not_an_obstacle():
-    from floorfit.dxfimport import load_plan
+    from floorfit.plan.dxf import load_plan
     from floorfit.errors import PlanImportError
     with pytest.raises(PlanImportError, match="nothing usable"):
         load_plan(PLANS / P1, layers=["Flooring"])
@@ -99,7 +99,7 @@ def test_3_plan_with_elevations_lying_header_and_window():
     assert "likely unit: m" in _units_warning(report)
     _, report_m, _ = _import(P3, "m")
     assert _size(report_m) == pytest.approx((115.956, 50.05), abs=0.01)   # MANIFEST #3 extents
-    from floorfit.dxfimport import load_plan
+    from floorfit.plan.dxf import load_plan
     plan = load_plan(PLANS / P3, units="m", window=(-1, -1, 52, 22))       # the plan, lower left
     assert len(plan.doors) == 8
     x0, y0, x1, y1 = plan.extent_m

@@ -14,8 +14,8 @@ import pytest
 import shapely
 
 import dxf_fixtures as F
-from floorfit.dxfimport import load_plan
-from floorfit.dxfimport.importer import DEFAULT_CURVE_TOLERANCE_M
+from floorfit.plan.dxf import load_plan
+from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M
 
 TOL = DEFAULT_CURVE_TOLERANCE_M
 ALL = [(v, u) for v in F.VERSIONS for u in F.UNITS]

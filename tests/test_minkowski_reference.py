@@ -7,7 +7,7 @@ import pytest
 import shapely
 from shapely.geometry import Polygon, box
 
-from floorfit.minkowski import convex_parts, is_convex, minkowski_sum, prepare_obstacles, cobstacle_pieces
+from floorfit.cspace.minkowski import convex_parts, is_convex, minkowski_sum, prepare_obstacles, cobstacle_pieces
 
 
 def _disc(r, n=4096):

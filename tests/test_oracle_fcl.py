@@ -13,7 +13,7 @@ import shapely
 from shapely.geometry import Polygon
 
 import floorfit as ff
-from floorfit.plan import Plan
+from floorfit.plan.model import Plan
 
 fcl = pytest.importorskip("fcl")
 

@@ -13,7 +13,7 @@ from scipy.optimize import minimize_scalar
 from shapely.geometry import LineString, Polygon
 
 import floorfit as ff
-from floorfit.plan import Plan
+from floorfit.plan.model import Plan
 from floorfit.testing import assert_path_clear
 
 INCH = 0.0254

@@ -10,7 +10,7 @@ import os
 import pytest
 
 from floorfit.report import write_report
-from floorfit.report.demo import demo_result
+from report_fixtures import demo_result
 
 CHROMIUM = "/usr/bin/chromium"
 CHROMEDRIVER = "/usr/bin/chromedriver"

@@ -10,9 +10,9 @@ import pytest
 import shapely
 from shapely.geometry import box
 
-from floorfit.findings import CheckResult, Station
-from floorfit.plan import Plan
-from floorfit.report.demo import demo_result, demo_vehicle
+from floorfit.analysis.findings import CheckResult, Station
+from floorfit.plan.model import Plan
+from report_fixtures import demo_result, demo_vehicle
 from floorfit.report.figures import (FigureImage, choose_format, draw_report_figures,
                                      heading_count_figure, plan_figure, render_figure,
                                      turnability_figure, vehicle_figure)
@@ -118,7 +118,7 @@ def test_optional_figures_appear_only_with_their_data():
 
 
 def test_many_labels_are_thinned_and_said_so():
-    from floorfit.plan import Label
+    from floorfit.plan.model import Label
     result = demo_result(routes=False)
     result.turnability = {}
     result.plan.labels = [Label(f"R{i}", 1 + (i % 25), 1 + (i // 25) % 16) for i in range(450)]

@@ -16,10 +16,10 @@ import shapely
 from shapely.geometry import LineString, box
 
 from floorfit.errors import InputError
-from floorfit.findings import CheckResult, Finding, Station
-from floorfit.plan import Plan
+from floorfit.analysis.findings import CheckResult, Finding, Station
+from floorfit.plan.model import Plan
 from floorfit.report import write_report
-from floorfit.report.demo import demo_vehicle
+from report_fixtures import demo_vehicle
 from floorfit.report.overlay import LAYERS, insunits_for, overlay_dxf
 
 pyogrio_raw = pytest.importorskip("pyogrio.raw")

@@ -10,10 +10,10 @@ import math
 import pytest
 from shapely.geometry import box
 
-from floorfit.findings import CheckResult, Finding, Station
-from floorfit.plan import Plan
+from floorfit.analysis.findings import CheckResult, Finding, Station
+from floorfit.plan.model import Plan
 from floorfit.report import write_report
-from floorfit.report.demo import demo_result, demo_vehicle
+from report_fixtures import demo_result, demo_vehicle
 from floorfit.report.tables import (CSV_COLUMNS, REPORT_FORMAT, escape_csv_cell, findings_csv,
                                     findings_json, report_data)
 

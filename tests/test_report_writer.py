@@ -11,7 +11,7 @@ import pytest
 from floorfit.errors import InputError
 from floorfit.report import COMPLETION_MARKER, OUTPUT_FILES, write_report
 from floorfit.report import writer as writer_module
-from floorfit.report.demo import demo_result
+from report_fixtures import demo_result
 
 ALL = ("html", "json", "csv", "dxf")
 

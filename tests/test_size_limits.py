@@ -4,11 +4,11 @@ import pytest
 import shapely
 
 import floorfit as ff
-import floorfit.sizelimits as limits
-from floorfit.check import run_check
+import floorfit.cspace.sizelimits as limits
+from floorfit.analysis.check import run_check
 from floorfit.errors import LimitExceeded
-from floorfit.findings import Station
-from floorfit.plan import Plan
+from floorfit.analysis.findings import Station
+from floorfit.plan.model import Plan
 
 
 def test_too_many_edge_slices_gives_advice(monkeypatch):

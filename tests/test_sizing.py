@@ -11,11 +11,11 @@ from shapely.geometry import Polygon
 
 import floorfit as ff
 from floorfit.cli import main
-from floorfit.dxfimport.importer import DEFAULT_CURVE_TOLERANCE_M
+from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M
 from floorfit.errors import InputError
-from floorfit.findings import Station
-from floorfit.plan import Doorway, Label, Plan
-from floorfit.sizing import family_is_nested, size_vehicle, vehicle_family
+from floorfit.analysis.findings import Station
+from floorfit.plan.model import Doorway, Label, Plan
+from floorfit.analysis.sizing import family_is_nested, size_vehicle, vehicle_family
 
 
 def two_rooms(door_width: float, wall_t: float = 0.2) -> Plan:

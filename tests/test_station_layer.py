@@ -3,7 +3,7 @@
 import ezdxf
 import pytest
 
-from floorfit.site import read_site, stations_from_drawing
+from floorfit.plan.site import read_site, stations_from_drawing
 
 
 def test_points_and_named_blocks_on_the_station_layer(tmp_path):

@@ -5,13 +5,19 @@ heading circle times the hitch-angle circle. Trains drive forward only (reversin
 is not supported). Lengths in metres, angles in degrees at this interface (radians inside the
 motion segments, as in :mod:`floorfit.motion`). See docs/articulated.md.
 
-Modules: :mod:`.train` (train files), :mod:`.kinematics` (the trailer model in closed form),
+Train files are read by :mod:`floorfit.vehicles.train`. Modules: :mod:`.kinematics` (the trailer model in closed form),
 :mod:`.sweep` (collisions, jack-knife, swept path), :mod:`.search` (forward motion search),
 :mod:`.routes` (forward curves through poses), :mod:`.turnaround` (full forward loops),
 :mod:`.sizing` (longest cart for a route), :mod:`.sitecheck` (findings for ``floorfit check``).
+
+Stage 6 of the pipeline: it sits above :mod:`floorfit.analysis` because the train's site check
+(:mod:`.sitecheck`) extends the rigid check's result and uses its clearance field and
+turnability. May import: :mod:`floorfit.analysis`, :mod:`floorfit.motion`,
+:mod:`floorfit.cspace`, :mod:`floorfit.vehicles` (train files), :mod:`floorfit.plan`,
+:mod:`floorfit.errors`.
 """
 
-from .kinematics import (
+from floorfit.articulated.kinematics import (
     DEFAULT_TOLERANCE_M,
     SteadyTurn,
     TrainMotion,
@@ -22,9 +28,9 @@ from .kinematics import (
     steady_turn,
     tractrix_angle,
 )
-from .routes import default_turn_radius, path_through
-from .search import SearchSettings, TrainPlanResult, cart_pose, plan_forward
-from .sitecheck import (
+from floorfit.articulated.routes import default_turn_radius, path_through
+from floorfit.articulated.search import SearchSettings, TrainPlanResult, cart_pose, plan_forward
+from floorfit.articulated.sitecheck import (
     TrainCheck,
     articulated_check,
     articulated_findings,
@@ -32,10 +38,10 @@ from .sitecheck import (
     merge_into_result,
     train_route_sweep,
 )
-from .sizing import CartLengthResult, largest_cart_length
-from .sweep import MotionVerdict, TrainChecker, judge_motion, off_tracking_m, swept_geometry
-from .train import Train, is_train_file, load_train, make_train, train_from_table
-from .turnaround import TurnCircle, turn_circle, turnaround_region
+from floorfit.articulated.sizing import CartLengthResult, largest_cart_length
+from floorfit.articulated.sweep import MotionVerdict, TrainChecker, judge_motion, off_tracking_m, swept_geometry
+from floorfit.vehicles.train import Train, is_train_file, load_train, make_train, train_from_table
+from floorfit.articulated.turnaround import TurnCircle, turn_circle, turnaround_region
 
 __all__ = [
     "DEFAULT_TOLERANCE_M",
@@ -66,7 +72,6 @@ __all__ = [
     "off_tracking_m",
     "path_through",
     "plan_forward",
-    "split_vehicle_file",
     "steady_trailer_radius",
     "steady_turn",
     "swept_geometry",
@@ -77,19 +82,3 @@ __all__ = [
     "turnaround_region",
 ]
 
-
-def split_vehicle_file(path):
-    """Read a vehicle or train file: ``(vehicle for the rigid check, Train or None)``.
-
-    A file with a ``[cart]`` table is a train: the rigid check runs with its tractor. Anything
-    else is read by :func:`floorfit.vehicle.load_vehicle`. Raises VehicleError on bad input.
-    """
-    from ..errors import VehicleError
-    from ..tomlcheck import read_toml
-    from ..vehicle import load_vehicle
-
-    data = read_toml(path, VehicleError)
-    if is_train_file(data):
-        train = train_from_table(data, str(path))
-        return train.tractor, train
-    return load_vehicle(path), None

@@ -47,9 +47,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..errors import InputError
-from ..motion.segments import Segment, poses_along
-from .train import Train
+from floorfit.errors import InputError
+from floorfit.motion.segments import Segment, poses_along
+from floorfit.vehicles.train import Train
 
 __all__ = [
     "DEFAULT_TOLERANCE_M",
@@ -269,7 +269,7 @@ class TrainMotion:
         return len(self.tractor)
 
     def tractor_deg(self) -> np.ndarray:
-        """Tractor poses with heading in degrees (for floorfit.collision)."""
+        """Tractor poses with heading in degrees (for floorfit.cspace.collision)."""
         out = self.tractor.copy()
         out[:, 2] = np.degrees(_wrap(out[:, 2]))
         return out

@@ -12,11 +12,11 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from ..errors import InputError
-from ..motion.dubins import dubins_path
-from ..motion.segments import Segment
-from .kinematics import jack_knife_radius
-from .train import Train
+from floorfit.errors import InputError
+from floorfit.motion.dubins import dubins_path
+from floorfit.motion.segments import Segment
+from floorfit.articulated.kinematics import jack_knife_radius
+from floorfit.vehicles.train import Train
 
 __all__ = ["default_turn_radius", "path_through"]
 

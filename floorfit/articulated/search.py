@@ -39,13 +39,13 @@ import numpy as np
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import dijkstra
 
-from ..clearance_field import clearance_field
-from ..errors import InputError
-from ..motion.dubins import dubins_path
-from ..motion.segments import Segment, arc, rotate, straight
-from .kinematics import DEFAULT_TOLERANCE_M, TrainMotion, follow, jack_knife_radius
-from .sweep import TrainChecker, judge_motion
-from .train import Train
+from floorfit.analysis.clearance_field import clearance_field
+from floorfit.errors import InputError
+from floorfit.motion.dubins import dubins_path
+from floorfit.motion.segments import Segment, arc, rotate, straight
+from floorfit.articulated.kinematics import DEFAULT_TOLERANCE_M, TrainMotion, follow, jack_knife_radius
+from floorfit.articulated.sweep import TrainChecker, judge_motion
+from floorfit.vehicles.train import Train
 
 __all__ = [
     "FOUND",
@@ -268,7 +268,7 @@ class _Primitives:
             m = follow([seg], train, cart_heading=0.0, tolerance_m=tolerance)
             n = len(m) - 1
             frac = np.arange(1, n + 1) / n
-            from .kinematics import _hitch_path
+            from floorfit.articulated.kinematics import _hitch_path
             sh, kh, alpha0, _ = _hitch_path(seg, train.hitch)
             rel.append(m.tractor[1:])
             s_h.append(sh * frac)

@@ -22,15 +22,15 @@ from typing import Any
 import networkx as nx
 import numpy as np
 
-from ..errors import FloorfitError
-from ..findings import Finding, Station
-from ..naming import place_name
-from ..plan import Plan
-from .kinematics import follow, jack_knife_radius
-from .search import SearchSettings, TrainPlanResult, cart_pose, plan_forward
-from .sweep import MotionVerdict, TrainChecker, judge_motion, off_tracking_m, swept_geometry
-from .train import Train
-from .turnaround import TurnCircle, turn_circle, turnaround_region
+from floorfit.errors import FloorfitError
+from floorfit.analysis.findings import Finding, Station
+from floorfit.analysis.naming import place_name
+from floorfit.plan.model import Plan
+from floorfit.articulated.kinematics import follow, jack_knife_radius
+from floorfit.articulated.search import SearchSettings, TrainPlanResult, cart_pose, plan_forward
+from floorfit.articulated.sweep import MotionVerdict, TrainChecker, judge_motion, off_tracking_m, swept_geometry
+from floorfit.vehicles.train import Train
+from floorfit.articulated.turnaround import TurnCircle, turn_circle, turnaround_region
 
 __all__ = [
     "START_HEADINGS_DEG",
@@ -97,9 +97,9 @@ def _starts(train: Train, checker: TrainChecker, st_local, heading_deg: float | 
 
 
 def _tractor_reach(plan: Plan, train: Train, stations: list[Station]) -> dict[str, dict[str, bool]]:
-    from ..check import station_nodes
-    from ..cspace import build_slices, choose_headings
-    from ..roadmap import build_roadmap
+    from floorfit.cspace.roadmap import station_nodes
+    from floorfit.cspace.slices import build_slices, choose_headings
+    from floorfit.cspace.roadmap import build_roadmap
 
     extra = [s.heading_deg for s in stations if s.heading_deg is not None]
     slices = build_slices(plan, train.tractor, cells=choose_headings(plan, train.tractor, extra_headings=extra))
@@ -143,7 +143,7 @@ def explain_blocked(checker: TrainChecker, starts, goal, *, goal_heading_tol_deg
                            tractor_line=alone, passes=True, hitch_angle_deg=v.hitch_angle_deg)
     geom = None
     if v.index is not None:
-        from ..collision import place_footprint
+        from floorfit.cspace.collision import place_footprint
         cart = m.cart_deg()[v.index]
         geom = place_footprint(train.cart_footprint, cart[None, :])[0]
     if v.problem == "cart":
@@ -315,7 +315,7 @@ def _merge(findings: list[Finding], f: Finding, radius_m: float = 0.5) -> Findin
 
 
 def merge_into_result(result, tc: TrainCheck) -> None:
-    """Fold a train check into the rigid check's :class:`~floorfit.findings.CheckResult` (in place).
+    """Fold a train check into the rigid check's :class:`~floorfit.analysis.findings.CheckResult` (in place).
 
     Adds the train's findings and ranks all of them again (ids renumbered), makes
     ``reachable[a][b]`` False where the train cannot drive from a to b forward, adds the train
@@ -323,7 +323,7 @@ def merge_into_result(result, tc: TrainCheck) -> None:
     routes) and ``turnability["train_turns_around"]`` (local turn centres), and records the train
     and its forward reachability in ``settings``.
     """
-    from ..check import rank_findings
+    from floorfit.analysis.check import rank_findings
 
     result.findings = rank_findings(list(result.findings) + list(tc.findings))
     names = list(result.reachable)

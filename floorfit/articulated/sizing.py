@@ -20,11 +20,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..motion.segments import Segment
-from ..plan import Plan
-from .kinematics import DEFAULT_TOLERANCE_M, follow
-from .sweep import MotionVerdict, TrainChecker, judge_motion
-from .train import MIN_TONGUE_M, Train
+from floorfit.motion.segments import Segment
+from floorfit.plan.model import Plan
+from floorfit.articulated.kinematics import DEFAULT_TOLERANCE_M, follow
+from floorfit.articulated.sweep import MotionVerdict, TrainChecker, judge_motion
+from floorfit.vehicles.train import MIN_TONGUE_M, Train
 
 __all__ = ["CartLengthResult", "largest_cart_length"]
 

@@ -35,10 +35,10 @@ import shapely
 import shapely.ops
 from shapely.geometry import LineString, Polygon
 
-from ..collision import PoseChecker, place_footprint
-from ..plan import Plan
-from .kinematics import TrainMotion
-from .train import Train
+from floorfit.cspace.collision import PoseChecker, place_footprint
+from floorfit.plan.model import Plan
+from floorfit.articulated.kinematics import TrainMotion
+from floorfit.vehicles.train import Train
 
 __all__ = [
     "PENETRATION_STEP_M",

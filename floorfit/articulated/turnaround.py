@@ -16,7 +16,7 @@ a loop. The test used here is conservative:
    turning directions; the one with the smallest outer radius is kept.
 3. The turn-around region is the set of turn centres where the **whole disc** of the outer
    radius is clear of obstacles (obstacles inside the inner radius are not credited), computed
-   like :func:`floorfit.turnability.turn_region` (the disc replaced by a circumscribed polygon).
+   like :func:`floorfit.analysis.turnability.turn_region` (the disc replaced by a circumscribed polygon).
 
 The straight approach into the circle and the exit out of it, along tangents, are not part of
 this test. Errs towards "cannot turn here".
@@ -31,13 +31,13 @@ import numpy as np
 import shapely
 from shapely.geometry import Polygon, box
 
-from ..collision import place_footprint
-from ..cspace import obstacles_for
-from ..motion.segments import arc
-from ..plan import Plan
-from ..turnability import turn_region
-from .kinematics import DEFAULT_TOLERANCE_M, follow, jack_knife_radius, steady_turn
-from .train import Train
+from floorfit.cspace.collision import place_footprint
+from floorfit.cspace.slices import obstacles_for
+from floorfit.motion.segments import arc
+from floorfit.plan.model import Plan
+from floorfit.analysis.turnability import turn_region
+from floorfit.articulated.kinematics import DEFAULT_TOLERANCE_M, follow, jack_knife_radius, steady_turn
+from floorfit.vehicles.train import Train
 
 __all__ = ["RADIUS_FACTORS", "TurnCircle", "turn_circle", "turnaround_region"]
 
@@ -105,7 +105,7 @@ def turn_circle(train: Train, *, radii=None, tolerance_m: float = DEFAULT_TOLERA
             if c is not None and (best is None or c.outer_m < best.outer_m):
                 best = c
     if best is None:
-        from ..errors import InputError
+        from floorfit.errors import InputError
         raise InputError("no forward loop keeps the hitch angle within its limit at these radii", where="radii")
     return best
 

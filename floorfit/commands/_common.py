@@ -8,7 +8,7 @@ import os
 import tempfile
 from pathlib import Path
 
-from ..errors import InputError
+from floorfit.errors import InputError
 
 __all__ = ["parse_pose", "parse_floats", "write_json_atomic", "add_plan_arguments", "load_plan_from_args"]
 
@@ -59,6 +59,6 @@ def add_plan_arguments(p) -> None:
 
 
 def load_plan_from_args(args, roles=None):
-    from ..dxfimport import load_plan
+    from floorfit.plan.dxf import load_plan
     window = parse_floats(args.window, 4, "--window") if getattr(args, "window", None) else None
     return load_plan(args.plan, units=getattr(args, "units", None), window=window, roles=roles)

@@ -30,9 +30,9 @@ def add_arguments(p) -> None:
 def run(args) -> int:
     import sys
 
-    from ..batch import read_manifest, run_batch
-    from ..errors import InputError
-    from ..report.batch_html import write_batch
+    from floorfit.fleet.batch import read_manifest, run_batch
+    from floorfit.errors import InputError
+    from floorfit.fleet.batch_html import write_batch
 
     if args.workers < 1:
         raise InputError(f"--workers must be at least 1, got {args.workers}", None, "--workers")

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ._common import add_plan_arguments, load_plan_from_args
+from floorfit.commands._common import add_plan_arguments, load_plan_from_args
 
 NAME = "check"
 HELP = "check a site for a vehicle: stations, pinch points, no-turn stretches, clearance; writes a report"
@@ -35,19 +35,18 @@ def run(args) -> int:
 
 def check_and_report(args):
     """Shared by ``check`` and ``demo``: read inputs, run the check, write the report."""
-    from ..check import run_check
-    from ..errors import InputError
-    from ..report import Progress, write_report
-    from ..site import Site, apply_height_ranges, parse_station_flag, read_site, stations_from_drawing
-    from ..vehicle import load_vehicle
+    from floorfit.analysis.check import run_check
+    from floorfit.errors import InputError
+    from floorfit.report import Progress, write_report
+    from floorfit.plan.site import Site, apply_height_ranges, parse_station_flag, read_site, stations_from_drawing
+    from floorfit.vehicles.loading import split_vehicle_file
 
     site = read_site(args.site) if args.site else Site()
     extra = [parse_station_flag(s) for s in args.station]
-    from ..articulated import articulated_check, merge_into_result, split_vehicle_file
+    from floorfit.articulated import articulated_check, merge_into_result
 
     state = "loaded" if getattr(args, "loaded", False) else "default"
-    vehicle, train = split_vehicle_file(args.vehicle) if state == "default" else \
-        (load_vehicle(args.vehicle, state=state), None)
+    vehicle, train = split_vehicle_file(args.vehicle, state=state)
     progress = Progress(quiet=args.quiet)
     progress.stage("reading the drawing")
     plan = apply_height_ranges(load_plan_from_args(args, roles=site.roles), site.heights)

@@ -5,8 +5,8 @@ Exit 0 when no station pair lost reachability, 1 when AFTER loses any pair, 2 ba
 
 from __future__ import annotations
 
-from ._common import parse_floats
-from .size import add_station_arguments, read_site_and_vehicle, stations_for
+from floorfit.commands._common import parse_floats
+from floorfit.commands.size import add_station_arguments, read_site_and_vehicle, stations_for
 
 NAME = "compare"
 HELP = ("compare two layouts for a vehicle: findings that appeared, disappeared or got worse, "
@@ -33,11 +33,11 @@ def add_arguments(p) -> None:
 
 
 def run(args) -> int:
-    from ..compare import compare_layouts
-    from ..dxfimport import load_plan
-    from ..errors import InputError
-    from ..report import Progress
-    from ..report.compare_html import write_comparison
+    from floorfit.analysis.compare import compare_layouts
+    from floorfit.plan.dxf import load_plan
+    from floorfit.errors import InputError
+    from floorfit.report import Progress
+    from floorfit.report.compare_html import write_comparison
 
     parse_floats(str(args.match_distance), 1, "--match-distance")
     if not args.match_distance > 0:

@@ -14,7 +14,7 @@ import os
 import tempfile
 from pathlib import Path
 
-from ..errors import InputError
+from floorfit.errors import InputError
 
 NAME = "inspect"
 HELP = "show how a DXF floor plan is read: unit, extent, layers and roles, doors, labels, issues"
@@ -67,8 +67,8 @@ def write_json_atomic(path: str | os.PathLike, data: dict) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from ..dxfimport import inspect_plan, read_roles
-    from ..dxfimport.report import format_report
+    from floorfit.plan.dxf import inspect_plan, read_roles
+    from floorfit.plan.dxf.report import format_report
 
     roles = read_roles(args.site) if args.site else None
     window = parse_window(args.window) if args.window else None

@@ -7,7 +7,7 @@ vehicles: the holonomic analysis connects the poses, the drive search gave up).
 
 from __future__ import annotations
 
-from ._common import (
+from floorfit.commands._common import (
     add_plan_arguments,
     load_plan_from_args,
     parse_pose,
@@ -42,8 +42,8 @@ def add_arguments(p) -> None:
 def _limits(args):
     from dataclasses import replace
 
-    from ..drive import DriveLimits
-    from ..errors import InputError
+    from floorfit.motion.drivable import DriveLimits
+    from floorfit.errors import InputError
 
     limits = DriveLimits()
     if args.max_expansions is not None:
@@ -58,8 +58,8 @@ def _limits(args):
 
 
 def run(args) -> int:
-    from ..route import NOT_FOUND_WITHIN_LIMITS, find_route
-    from ..vehicle import load_vehicle
+    from floorfit.motion.route_query import NOT_FOUND_WITHIN_LIMITS, find_route
+    from floorfit.vehicles.rigid import load_vehicle
 
     start = parse_pose(args.start, "--start")
     goal = parse_pose(args.goal, "--goal")
@@ -80,7 +80,7 @@ def run(args) -> int:
 
 
 def format_segment(seg: dict) -> str:
-    """One line for a segment dict of :class:`floorfit.route.RouteResult` (metres, degrees)."""
+    """One line for a segment dict of :class:`floorfit.motion.route_query.RouteResult` (metres, degrees)."""
     if seg["type"] == "rotate":
         a = seg["angle_deg"]
         return f"rotate in place {a:+.1f}°" if abs(a) >= 0.95 else f"rotate in place {a:+.3f}°"

@@ -8,7 +8,7 @@ from __future__ import annotations
 import time
 from pathlib import Path
 
-from ._common import add_plan_arguments, load_plan_from_args, parse_floats, write_json_atomic
+from floorfit.commands._common import add_plan_arguments, load_plan_from_args, parse_floats, write_json_atomic
 
 NAME = "size"
 HELP = ("find the largest width, length or scale of the vehicle for which every station pair stays "
@@ -32,8 +32,8 @@ def add_station_arguments(p) -> None:
 
 def read_site_and_vehicle(args):
     """(site, vehicle, station flags) from the common arguments."""
-    from ..site import Site, parse_station_flag, read_site
-    from ..vehicle import load_vehicle
+    from floorfit.plan.site import Site, parse_station_flag, read_site
+    from floorfit.vehicles.rigid import load_vehicle
 
     site = read_site(args.site) if args.site else Site()
     flags = [parse_station_flag(s) for s in args.station]
@@ -43,7 +43,7 @@ def read_site_and_vehicle(args):
 def stations_for(plan_path, plan, site, flags) -> list:
     """Stations of one drawing: the site file's, those on its station layer, then the
     ``--station`` flags (which replace stations of the same name)."""
-    from ..site import stations_from_drawing
+    from floorfit.plan.site import stations_from_drawing
 
     stations = list(site.stations)
     if site.station_layer:
@@ -65,9 +65,9 @@ def add_arguments(p) -> None:
 
 
 def run(args) -> int:
-    from ..errors import InputError
-    from ..report import Progress
-    from ..sizing import size_vehicle
+    from floorfit.errors import InputError
+    from floorfit.report import Progress
+    from floorfit.analysis.sizing import size_vehicle
 
     if args.max_m is not None:
         parse_floats(str(args.max_m), 1, "--max")

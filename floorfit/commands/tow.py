@@ -5,8 +5,8 @@ from __future__ import annotations
 
 import math
 
-from ..errors import InputError
-from ._common import add_plan_arguments, load_plan_from_args, parse_floats, parse_pose, write_json_atomic
+from floorfit.errors import InputError
+from floorfit.commands._common import add_plan_arguments, load_plan_from_args, parse_floats, parse_pose, write_json_atomic
 
 NAME = "tow"
 HELP = ("a tractor towing a cart: drive a route forward (or search one), off-tracking, jack-knife, "
@@ -31,7 +31,7 @@ def add_arguments(p) -> None:
 
 
 def run(args) -> int:
-    from ..articulated import (
+    from floorfit.articulated import (
         SearchSettings,
         TrainChecker,
         default_turn_radius,

@@ -12,6 +12,12 @@ Modules: :mod:`~floorfit.motion.segments` (path pieces), :mod:`~floorfit.motion.
 :mod:`~floorfit.motion.dubins` (shortest car paths), :mod:`~floorfit.motion.hybrid_astar`
 (search for cars), :mod:`~floorfit.motion.rotate_drive` (differential bases),
 :mod:`~floorfit.motion.grid_heuristic`, :mod:`~floorfit.motion.swept`.
+:mod:`~floorfit.motion.drivable` (turns the holonomic roadmap's answers into paths a
+differential or car-like base can drive) and :mod:`~floorfit.motion.route_query` (route
+queries between two poses: the ``floorfit route`` answer).
+
+Stage 4 of the pipeline. May import: :mod:`floorfit.cspace`, :mod:`floorfit.vehicles`,
+:mod:`floorfit.plan`, :mod:`floorfit.errors`.
 """
 
 from floorfit.motion.dubins import dubins_length, dubins_path, dubins_words

@@ -11,13 +11,16 @@
 
 The renderers are importable on their own: :func:`findings_json`, :func:`findings_csv`,
 :func:`render_html` with :func:`draw_report_figures`, :func:`overlay_dxf`.
+
+Stage 7 of the pipeline. May import: :mod:`floorfit.articulated`, :mod:`floorfit.analysis` and
+everything below them; never :mod:`floorfit.fleet` or :mod:`floorfit.commands`.
 """
 
 from __future__ import annotations
 
-from .progress import Progress
-from .tables import REPORT_FORMAT, REPORT_FORMAT_VERSION, findings_csv, findings_json, report_data
-from .writer import COMPLETION_MARKER, OUTPUT_FILES, write_report
+from floorfit.report.progress import Progress
+from floorfit.report.tables import REPORT_FORMAT, REPORT_FORMAT_VERSION, findings_csv, findings_json, report_data
+from floorfit.report.writer import COMPLETION_MARKER, OUTPUT_FILES, write_report
 
 __all__ = [
     "write_report", "OUTPUT_FILES", "COMPLETION_MARKER", "REPORT_FORMAT", "REPORT_FORMAT_VERSION",
@@ -29,12 +32,12 @@ __all__ = [
 def __getattr__(name: str):
     # matplotlib and ezdxf load only when a figure or the overlay is actually needed.
     if name == "render_html":
-        from .html import render_html
+        from floorfit.report.html import render_html
         return render_html
     if name == "draw_report_figures":
-        from .figures import draw_report_figures
+        from floorfit.report.figures import draw_report_figures
         return draw_report_figures
     if name == "overlay_dxf":
-        from .overlay import overlay_dxf
+        from floorfit.report.overlay import overlay_dxf
         return overlay_dxf
     raise AttributeError(f"module 'floorfit.report' has no attribute {name!r}")

@@ -24,9 +24,9 @@ import secrets
 from pathlib import Path
 from typing import Any
 
-from .. import __version__
-from ..errors import InputError
-from .kinds import kind_style
+from floorfit import __version__
+from floorfit.errors import InputError
+from floorfit.report.kinds import kind_style
 
 __all__ = ["CHANGE_STYLES", "comparison_figures", "render_comparison_html", "write_comparison",
            "write_bytes_atomic", "stable_json", "COMPARISON_FILES"]
@@ -115,7 +115,7 @@ def _highlight(fig: Any, result: Any, rings: list[tuple[str, float, float]]) -> 
 
 def comparison_figures(comparison: Any, fmt: str | None = None) -> dict[str, Any]:
     """``{"before": FigureImage, "after": FigureImage}``: each plan with its changes ringed."""
-    from .figures import FigureImage, choose_format, plan_figure, render_figure
+    from floorfit.report.figures import FigureImage, choose_format, plan_figure, render_figure
 
     images = {}
     for side in ("before", "after"):
@@ -230,8 +230,8 @@ def _sizing_block(comparison: Any) -> str:
 
 def render_comparison_html(comparison: Any, images: dict[str, Any], links: dict[str, str] | None = None) -> str:
     """The comparison page as a string. ``links``: ``{"before": href, "after": href}`` of the full reports."""
-    from .cautions import CAUTIONS
-    from .html import CSS
+    from floorfit.report.cautions import CAUTIONS
+    from floorfit.report.html import CSS
 
     links = links or {}
     before, after = comparison.before, comparison.after
@@ -277,7 +277,7 @@ def render_comparison_html(comparison: Any, images: dict[str, Any], links: dict[
 def write_comparison(comparison: Any, out_dir: str | os.PathLike, *, reports: bool = True, force: bool = False,
                      quiet: bool = True) -> dict[str, Path]:
     """Write the comparison files into ``out_dir`` (created if missing); return ``{name: path}``."""
-    from .writer import write_report
+    from floorfit.report.writer import write_report
 
     out_dir = Path(out_dir)
     if out_dir.exists() and not out_dir.is_dir():

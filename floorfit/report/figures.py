@@ -31,8 +31,8 @@ from matplotlib.patches import Circle, Patch, PathPatch, Rectangle
 from matplotlib.path import Path
 from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
-from .geometry import parts
-from .kinds import kind_style, numbered_findings, plain_text
+from floorfit.report.geometry import parts
+from floorfit.report.kinds import kind_style, numbered_findings, plain_text
 
 __all__ = [
     "FigureImage", "TURN_CLASSES", "plan_figure", "turnability_figure", "heading_count_figure",

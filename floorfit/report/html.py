@@ -13,12 +13,12 @@ import html
 import os
 from typing import Any, Iterable, Sequence
 
-from .. import __version__
-from ..findings import FINDING_KINDS
-from .cautions import CAUTIONS, CLEARANCE_REFERENCES, tolerance_statement
-from .figures import TURN_CLASSES, FigureImage
-from .kinds import KIND_STYLES, kind_style, numbered_findings
-from .tables import station_names, unreachable_pairs
+from floorfit import __version__
+from floorfit.analysis.findings import FINDING_KINDS
+from floorfit.report.cautions import CAUTIONS, CLEARANCE_REFERENCES, tolerance_statement
+from floorfit.report.figures import TURN_CLASSES, FigureImage
+from floorfit.report.kinds import KIND_STYLES, kind_style, numbered_findings
+from floorfit.report.tables import station_names, unreachable_pairs
 
 __all__ = ["render_html", "KIND_SYMBOLS"]
 

@@ -13,7 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any, Iterable
 
-from ..findings import FINDING_KINDS
+from floorfit.analysis.findings import FINDING_KINDS
 
 __all__ = ["KindStyle", "KIND_STYLES", "kind_style", "numbered_findings", "plain_text"]
 

@@ -21,10 +21,10 @@ import shapely
 from ezdxf.enums import TextEntityAlignment
 from ezdxf.units import METER_FACTOR, decode as unit_symbol
 
-from .geometry import parts
-from .. import __version__
-from ..errors import InputError
-from .kinds import KIND_STYLES, kind_style, numbered_findings, plain_text
+from floorfit.report.geometry import parts
+from floorfit import __version__
+from floorfit.errors import InputError
+from floorfit.report.kinds import KIND_STYLES, kind_style, numbered_findings, plain_text
 
 __all__ = ["LAYERS", "FINDING_LAYERS", "finding_layer", "geometry_layer", "insunits_for", "overlay_dxf"]
 

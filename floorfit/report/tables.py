@@ -17,9 +17,9 @@ from typing import Any, Sequence
 import numpy as np
 import shapely
 
-from .. import __version__
-from ..findings import FINDING_KINDS
-from .kinds import numbered_findings
+from floorfit import __version__
+from floorfit.analysis.findings import FINDING_KINDS
+from floorfit.report.kinds import numbered_findings
 
 __all__ = [
     "REPORT_FORMAT", "REPORT_FORMAT_VERSION", "CSV_COLUMNS",

@@ -28,9 +28,9 @@ import secrets
 from pathlib import Path
 from typing import Any, Iterable
 
-from ..errors import InputError
-from .progress import Progress
-from .tables import CSV_COLUMNS, REPORT_FORMAT
+from floorfit.errors import InputError
+from floorfit.report.progress import Progress
+from floorfit.report.tables import CSV_COLUMNS, REPORT_FORMAT
 
 __all__ = ["OUTPUT_FILES", "COMPLETION_MARKER", "write_report", "floorfit_wrote"]
 
@@ -152,10 +152,10 @@ def _sync_folder(folder: Path) -> None:
 
 def _render(result: Any, chosen: list[str], progress: Progress) -> dict[str, bytes]:
     # Imported here so that `import floorfit.report` stays light.
-    from .figures import draw_report_figures
-    from .html import render_html
-    from .overlay import overlay_dxf
-    from .tables import findings_csv, findings_json
+    from floorfit.report.figures import draw_report_figures
+    from floorfit.report.html import render_html
+    from floorfit.report.overlay import overlay_dxf
+    from floorfit.report.tables import findings_csv, findings_json
 
     contents: dict[str, bytes] = {}
     if "html" in chosen:
@@ -177,7 +177,7 @@ def _render(result: Any, chosen: list[str], progress: Progress) -> dict[str, byt
 def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False,
                  formats: Iterable[str] = ("html", "json", "csv", "dxf"),
                  quiet: bool = False) -> dict[str, Path]:
-    """Write the report files of ``result`` (a :class:`~floorfit.findings.CheckResult`)
+    """Write the report files of ``result`` (a :class:`~floorfit.analysis.findings.CheckResult`)
     into ``out_dir`` and return ``{format: path}`` of the files written.
 
     Parameters

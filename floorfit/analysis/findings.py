@@ -1,0 +1,102 @@
+"""What a site check reports: stations, findings and the result of a whole check.
+
+All coordinates here are in the **drawing frame**, metres (what the user sees), except
+the ``geometry`` fields, which are shapely geometries in the plan's *local* frame (use
+``plan.geometry_to_drawing``) and are never written to JSON.
+
+Finding kinds (the JSON ``kind`` values):
+
+``blocked``
+    Floor a person could walk through that this vehicle cannot pass at any heading
+    (a doorway or aisle too narrow, a corner it cannot make).
+``no-turn``
+    A stretch the vehicle can drive along but where it can never reverse its heading.
+``tight``
+    Passable, but with less clearance than the site asks for.
+``maneuver``
+    A car-like vehicle can serve the stations only with reversing (a multi-point turn), or
+    not at all forward within the search limits.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+from floorfit.plan.stations import Station
+
+__all__ = ["Station", "Finding", "CheckResult", "FINDING_KINDS"]
+
+FINDING_KINDS = ("blocked", "no-turn", "tight", "maneuver")
+
+
+@dataclass
+class Finding:
+    """One located, explained problem. Positions in the drawing frame, metres."""
+
+    kind: str
+    x: float
+    y: float
+    summary: str                                   # one plain line with the numbers
+    label: str | None = None                       # nearest room / doorway label
+    cause: str = "width"                           # "width", "height", "corner", "maneuver", ...
+    clear_width_m: float | None = None             # narrowest clear width found there
+    needed_width_m: float | None = None            # width the vehicle needs there
+    clearance_m: float | None = None               # clearance found (tight)
+    clear_height_m: float | None = None            # lowest overhead obstacle there (height blocks)
+    needed_height_m: float | None = None           # the vehicle's height
+    direction_changes: int | None = None           # forward/reverse changes a manoeuvre needs
+    required_clearance_m: float | None = None      # clearance the site asks for (tight)
+    heading_ranges_deg: list[tuple[float, float]] = field(default_factory=list)
+    extent: tuple[float, float, float, float] | None = None   # xmin, ymin, xmax, ymax
+    cuts_off: list[str] = field(default_factory=list)         # station names it separates
+    id: str = ""
+    geometry: Any = None                           # local-frame shapely geometry, for drawing only
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "id": self.id, "kind": self.kind, "cause": self.cause,
+            "x": round(self.x, 4), "y": round(self.y, 4),
+            "label": self.label, "summary": self.summary,
+            "clear_width_m": _r(self.clear_width_m), "needed_width_m": _r(self.needed_width_m),
+            "clearance_m": _r(self.clearance_m), "required_clearance_m": _r(self.required_clearance_m),
+            "clear_height_m": _r(self.clear_height_m), "needed_height_m": _r(self.needed_height_m),
+            "direction_changes": self.direction_changes,
+            "heading_ranges_deg": [[round(a, 2), round(b, 2)] for a, b in self.heading_ranges_deg],
+            "extent": None if self.extent is None else [round(v, 4) for v in self.extent],
+            "cuts_off": list(self.cuts_off),
+        }
+
+
+def _r(v: float | None, nd: int = 4) -> float | None:
+    return None if v is None else round(float(v), nd)
+
+
+@dataclass
+class CheckResult:
+    """Everything one ``floorfit check`` found.
+
+    ``reachable[a][b]`` is True when station ``b`` can be reached from station ``a``.
+    ``cuts[(a, b)]`` names the finding ids that explain why a pair is not connected.
+    ``turnability`` holds local-frame shapely geometries for the map:
+    ``"fits"`` (the vehicle fits at some heading), ``"turns_around"`` (it can reverse its
+    heading there), ``"rotates"`` (it can spin a full turn in place), plus
+    ``"heading_count"`` as a dict with a raster of how many heading slices are free.
+    """
+
+    plan: Any
+    vehicle: Any
+    settings: dict[str, Any]
+    stations: list[Station]
+    reachable: dict[str, dict[str, bool]]
+    findings: list[Finding]
+    cuts: dict[tuple[str, str], list[str]] = field(default_factory=dict)
+    turnability: dict[str, Any] = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+    routes: list[dict[str, Any]] = field(default_factory=list)
+
+    @property
+    def passed(self) -> bool:
+        """True when every station reaches every other and no ``blocked`` finding stands."""
+        all_ok = all(v for row in self.reachable.values() for v in row.values())
+        return all_ok and not any(f.kind == "blocked" for f in self.findings)

@@ -1,0 +1,563 @@
+"""Heading slices of the configuration space (plane × circle).
+
+Each slice stands for one *heading cell* (see :mod:`floorfit.cspace.headings`). Two bounds are
+built from the same machinery:
+
+``"sound"`` (the default)
+    The footprint is grown by ``2ρ·sin(Δ/2) + curve tolerance`` (ρ the footprint's
+    radius about the reference point, Δ the largest rotation from the slice heading that
+    stays in the cell). A point of the slice's free space is then clear **at every
+    heading of the cell**: the vehicle may translate there at the slice heading and
+    rotate anywhere within the cell. Errs towards "does not fit" by at most
+    ``tolerance_m``.
+``"optimistic"``
+    The footprint is shrunk by the same amount. A position where the vehicle is clear at
+    *some* heading of the cell lies in this slice, so a route that does not exist here
+    does not exist at all. Errs towards "fits" by at most ``tolerance_m``.
+
+Free space is limited to a rectangle around the plan (its obstacles' bounds grown by the
+vehicle radius plus 1 m). Components smaller than ``MIN_COMPONENT_AREA_M2`` are dropped
+(conservative for the sound bound).
+
+Speed
+-----
+The obstacles are prepared once for all headings (:func:`floorfit.cspace.minkowski.prepare_obstacles`).
+Obstacles farther apart than the footprint's diameter can never have overlapping
+C-obstacles, so they are grouped into clusters once (:func:`obstacle_clusters`) and each
+slice unions every cluster's pieces on its own; the cluster unions are disjoint and form
+the C-obstacle directly. Headings are independent and run on a process pool
+(``workers``); a single heading's union is not split (that does not pay).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass, field
+
+import numpy as np
+import shapely
+from scipy.sparse import coo_matrix
+from scipy.spatial.distance import pdist
+from scipy.sparse.csgraph import connected_components
+from shapely.geometry import Polygon, box
+
+from floorfit.cspace.headings import HeadingCells, default_step_deg, dominant_directions_deg, make_heading_cells, \
+    rotation_displacement_m, wrap_deg
+from floorfit.cspace.minkowski import ObstacleSet, cobstacle_pieces, cobstacle_rings, convex_parts, footprint_parts_at, \
+    prepare_obstacles
+from floorfit.plan.model import Plan
+from floorfit.vehicles.rigid import Vehicle
+
+try:                                   # integer polygon clipping (Vatti); the GEOS path is the fallback
+    import pyclipper
+except ImportError:                    # pragma: no cover - depends on the installation
+    pyclipper = None
+
+__all__ = ["SliceSet", "build_slices", "choose_headings", "obstacles_for", "obstacles_met", "obstacle_clusters",
+           "SliceRecipe", "slice_recipe", "slice_domain", "cluster_reach_m", "run_slice_jobs", "slice_cobstacle",
+           "slice_free", "free_components", "canonical_order", "union_polygons", "UNION_BACKEND", "CLIP_SCALE",
+           "CLIP_GUARD_M", "MIN_COMPONENT_AREA_M2", "DOMAIN_PAD_M", "BOUNDS"]
+
+#: Free-space components smaller than this are dropped, square metres.
+MIN_COMPONENT_AREA_M2 = 1e-6
+#: Free space extends this far (plus the vehicle radius) beyond the obstacles, metres.
+DOMAIN_PAD_M = 1.0
+BOUNDS = ("sound", "optimistic")
+
+
+def obstacles_for(plan: Plan, vehicle: Vehicle | None = None) -> ObstacleSet:
+    """Heading-independent obstacle preparation for ``plan``.
+
+    An obstacle counts where its height range (bottom, top) overlaps the vehicle's
+    (0, height): bottom < height and top > 0. Without a vehicle height every obstacle
+    reaching above the floor counts.
+    """
+    return prepare_obstacles(*obstacles_met(plan, vehicle))
+
+
+def obstacles_met(plan: Plan, vehicle: Vehicle | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """The walls and solids of ``plan`` that count for ``vehicle`` (see :func:`obstacles_for`), local frame."""
+    walls, solids = plan.walls, plan.solids
+    height = getattr(vehicle, "height_m", None) if vehicle is not None else None
+    h = np.inf if height is None else height
+    if len(walls):
+        walls = walls[(plan.wall_heights[:, 0] < h) & (plan.wall_heights[:, 1] > 0)]
+    if len(solids):
+        solids = solids[(plan.solid_heights[:, 0] < h) & (plan.solid_heights[:, 1] > 0)]
+    return walls, solids
+
+
+def choose_headings(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None = None,
+                    extra_headings=(), wall_directions: bool = True) -> HeadingCells:
+    """Slice headings: a uniform step, the plan's dominant wall directions and ``extra_headings``.
+
+    A vehicle of mode ``"fixed"`` gets exactly one heading (its ``fixed_heading_deg``, or
+    the first extra heading).
+    """
+    if vehicle.mode == "fixed":
+        h = vehicle.fixed_heading_deg
+        if h is None:
+            extra = list(extra_headings)
+            h = extra[0] if extra else 0.0
+        return make_heading_cells(0.0, only=[h])
+    step = heading_step_deg or default_step_deg(vehicle.radius_m)
+    extra = [float(h) for h in extra_headings]
+    if wall_directions and len(plan.walls):
+        for d in dominant_directions_deg(plan.walls):
+            extra.extend([d, d + 90.0, d + 180.0, d + 270.0])
+    return make_heading_cells(step, extra)
+
+
+def obstacle_clusters(obstacles: ObstacleSet, reach_m: float) -> np.ndarray:
+    """Cluster label of every C-obstacle piece :func:`cobstacle_pieces` returns for ONE footprint part.
+
+    Pieces of obstacles farther apart than ``reach_m`` (at least the footprint's diameter)
+    can never have overlapping C-obstacles: if o1 − f1 = o2 − f2 then |o1 − o2| = |f1 − f2|.
+    So each cluster of obstacles closer than ``reach_m`` to one another is unioned on its
+    own and the results are disjoint. Labels run over the convex groups in order, then
+    the non-convex solids.
+    """
+    geoms = []
+    for G in obstacles.convex_groups:
+        V = G.vertices
+        geoms.append(shapely.linestrings(V) if V.shape[1] == 2 else shapely.polygons(V))
+    if len(obstacles.nonconvex):
+        geoms.append(np.asarray(obstacles.nonconvex, dtype=object))
+    if not geoms:
+        return np.zeros(0, dtype=np.int64)
+    geoms = np.concatenate(geoms)
+    i, j = shapely.STRtree(geoms).query(geoms, predicate="dwithin", distance=reach_m)
+    n = len(geoms)
+    graph = coo_matrix((np.ones(len(i), dtype=np.int8), (i, j)), shape=(n, n))
+    return connected_components(graph, directed=False)[1]
+
+
+def _piece_labels(obstacles: ObstacleSet, labels: np.ndarray, n_parts: int) -> np.ndarray:
+    n_convex = sum(len(G) for G in obstacles.convex_groups)
+    return np.concatenate([np.tile(labels[:n_convex], n_parts), labels[n_convex:]])
+
+
+def _union_by_cluster(pieces: np.ndarray, labels: np.ndarray | None):
+    """Union of ``pieces``; with cluster ``labels`` (disjoint clusters) one union per cluster."""
+    if labels is None or len(pieces) != len(labels) or len(pieces) < 2:
+        return shapely.union_all(pieces) if len(pieces) else Polygon()
+    order = np.argsort(labels, kind="stable")
+    cut = np.flatnonzero(np.diff(labels[order])) + 1
+    if not len(cut):
+        return shapely.union_all(pieces)
+    polys = []
+    for grp in np.split(pieces[order], cut):
+        u = grp[0] if len(grp) == 1 else shapely.union_all(grp)
+        polys.extend(g for g in shapely.get_parts(u) if shapely.get_type_id(g) == 3)
+    return shapely.multipolygons(polys)
+
+
+def slice_cobstacle(obstacles: ObstacleSet, parts: list[Polygon], heading: float, grow: float,
+                    anchor_local: np.ndarray, labels: np.ndarray | None = None):
+    """The C-obstacle of one slice: the union of ``O ⊕ (−P)`` over obstacles O and footprint parts P.
+
+    ``parts`` (vehicle frame) are rotated to ``heading`` (degrees) and offset by ``grow``
+    metres (mitre; negative values are taken as 0); ``anchor_local`` is the footprint point
+    that translates non-convex solids; ``labels`` the clusters of
+    :func:`obstacle_clusters` (optional, for speed only). Local frame, metres.
+    """
+    verts = footprint_parts_at(parts, heading, grow if grow >= 0 else 0.0)
+    t = math.radians(heading)
+    c, s = math.cos(t), math.sin(t)
+    anchor = np.array([c * anchor_local[0] - s * anchor_local[1], s * anchor_local[0] + c * anchor_local[1]])
+    pieces = cobstacle_pieces(obstacles, verts, anchor)
+    piece_labels = _piece_labels(obstacles, labels, len(verts)) if labels is not None else None
+    return _union_by_cluster(pieces, piece_labels)
+
+
+def canonical_order(comps: np.ndarray) -> np.ndarray:
+    """Components sorted by the lower-left corner of their bounds (then area), to 1e-9 m.
+
+    The order does not depend on how the free space was computed (either overlay path, a
+    full build or :func:`floorfit.cspace.incremental.update_slices`), so node numbers ``(k, i)``
+    and anything that samples components in order agree between them.
+    """
+    if len(comps) < 2:
+        return comps
+    b = np.round(shapely.bounds(comps) * 1e9)
+    order = np.lexsort((np.round(shapely.area(comps) * 1e9), b[:, 3], b[:, 2], b[:, 1], b[:, 0]))
+    return comps[order]
+
+
+def free_components(free) -> np.ndarray:
+    """Polygon components of a free geometry (canonical order), without those under ``MIN_COMPONENT_AREA_M2``."""
+    comps = shapely.get_parts(free)
+    comps = comps[shapely.get_type_id(comps) == 3] if len(comps) else comps
+    if len(comps):
+        comps = comps[shapely.area(comps) > MIN_COMPONENT_AREA_M2]
+    return canonical_order(comps)
+
+
+#: How the slices' free space is computed: ``"clipper"`` (one Vatti sweep over all pieces on
+#: an integer grid, pyclipper) when available, else ``"geos"`` (shapely unions by cluster).
+UNION_BACKEND = "clipper" if pyclipper is not None else "geos"
+#: Grid of the integer clipping: coordinates are multiples of 2**-40 m (about 0.9e-12 m).
+CLIP_SCALE = float(2 ** 40)
+#: The sound footprint is grown by this much more (metres): 4 grid steps, more than the
+#: snapping can move a boundary (input vertices ½ step per coordinate, intersection points
+#: ½ step in each of the two sweeps: at most 1.5·√2 steps), so a C-obstacle never shrinks
+#: and poses that touch an obstacle are never inside the free space.
+CLIP_GUARD_M = 4.0 / CLIP_SCALE
+
+
+def _region_paths(region) -> list[np.ndarray]:
+    rings = shapely.get_rings(shapely.get_parts(region))
+    out = []
+    for r in rings:
+        c = np.asarray(r.coords)[:-1]
+        if len(c) >= 3:
+            out.append(np.round(c * CLIP_SCALE).astype(np.int64))
+    return out
+
+
+def _tree_polygons(tree) -> list:
+    """Polygons of a pyclipper PolyTree (outer contours with their holes; islands in holes as new polygons)."""
+    out = []
+    stack = list(tree.Childs)
+    while stack:
+        node = stack.pop()
+        shell = np.asarray(node.Contour, dtype=float) / CLIP_SCALE
+        holes = [np.asarray(h.Contour, dtype=float) / CLIP_SCALE for h in node.Childs]
+        out.append(shapely.Polygon(shell, holes))
+        for h in node.Childs:
+            stack.extend(h.Childs)
+    return out
+
+
+def _clip_free(coords: np.ndarray, counts: np.ndarray, groups: np.ndarray | None, region) -> np.ndarray | None:
+    """``region`` minus the union of the rings (non-zero winding) on the integer grid; None if clipping fails.
+
+    Rings of one obstacle cluster (``groups``: a cluster label per ring) are unioned in a
+    sweep of their own (few active edges per scanline), then all cluster unions, which are
+    disjoint, are subtracted from the region in one last sweep.
+    """
+    ints = np.round(coords * CLIP_SCALE).astype(np.int64)
+    ends = np.cumsum(counts)
+    starts = ends - counts
+    try:
+        if groups is None or not len(counts):
+            paths = [ints[a:b] for a, b in zip(starts, ends)]
+        else:
+            order = np.argsort(groups, kind="stable")
+            paths = []
+            for grp in np.split(order, np.flatnonzero(np.diff(groups[order])) + 1):
+                if len(grp) == 1:
+                    paths.append(ints[starts[grp[0]]:ends[grp[0]]])
+                    continue
+                pc = pyclipper.Pyclipper()
+                pc.AddPaths([ints[starts[i]:ends[i]] for i in grp], pyclipper.PT_SUBJECT, True)
+                paths.extend(pc.Execute(pyclipper.CT_UNION, pyclipper.PFT_NONZERO, pyclipper.PFT_NONZERO))
+        pc = pyclipper.Pyclipper()
+        pc.StrictlySimple = True
+        if paths:
+            pc.AddPaths(paths, pyclipper.PT_CLIP, True)
+        pc.AddPaths(_region_paths(region), pyclipper.PT_SUBJECT, True)
+        tree = pc.Execute2(pyclipper.CT_DIFFERENCE, pyclipper.PFT_EVENODD, pyclipper.PFT_NONZERO)
+    except pyclipper.ClipperException:
+        return None
+    comps = free_components(np.asarray(_tree_polygons(tree), dtype=object))
+    if len(comps) and not np.all(shapely.is_valid(comps)):
+        return None
+    return comps
+
+
+def _polygon_paths(geoms) -> list[np.ndarray]:
+    """Integer rings of polygons: shells counter-clockwise, holes clockwise (non-zero winding = inside)."""
+    parts = shapely.get_parts(np.asarray(geoms, dtype=object))
+    parts = parts[shapely.get_type_id(parts) == 3] if len(parts) else parts
+    if not len(parts):
+        return []
+    rings = shapely.get_rings(shapely.orient_polygons(parts, exterior_cw=False))
+    xy, idx = shapely.get_coordinates(rings, return_index=True)
+    ints = np.round(xy * CLIP_SCALE).astype(np.int64)
+    ends = np.cumsum(np.bincount(idx, minlength=len(rings)))
+    starts = np.r_[0, ends[:-1]]
+    return [ints[a:b - 1] for a, b in zip(starts, ends) if b - a >= 4]
+
+
+def union_polygons(geoms) -> np.ndarray:
+    """The union of polygons (local frame, metres) as its disjoint polygon components.
+
+    With :data:`UNION_BACKEND` ``"clipper"``: one integer sweep, results on the
+    2**-40 m grid; otherwise (or if that fails) ``shapely.union_all``.
+    """
+    if UNION_BACKEND == "clipper":
+        try:
+            pc = pyclipper.Pyclipper()
+            pc.StrictlySimple = True
+            paths = _polygon_paths(geoms)
+            if not paths:
+                return np.zeros(0, dtype=object)
+            pc.AddPaths(paths, pyclipper.PT_SUBJECT, True)
+            tree = pc.Execute2(pyclipper.CT_UNION, pyclipper.PFT_NONZERO, pyclipper.PFT_NONZERO)
+            polys = np.asarray(_tree_polygons(tree), dtype=object)
+            if not len(polys) or np.all(shapely.is_valid(polys)):
+                return polys
+        except pyclipper.ClipperException:
+            pass
+    parts = shapely.get_parts(shapely.union_all(np.asarray(geoms, dtype=object)))
+    return parts[shapely.get_type_id(parts) == 3] if len(parts) else parts
+
+
+def slice_free(obstacles: ObstacleSet, parts: list[Polygon], heading: float, grow: float, anchor_local: np.ndarray,
+               region, labels: np.ndarray | None = None) -> np.ndarray:
+    """Free-space components of one slice inside ``region`` (a polygon, local frame, metres).
+
+    Same arguments as :func:`slice_cobstacle`. With :data:`UNION_BACKEND` ``"clipper"`` the
+    C-obstacle pieces are subtracted from ``region`` in one integer sweep (results within
+    about 1e-12 m of the GEOS path, which is used when pyclipper is missing or fails).
+    """
+    if UNION_BACKEND == "clipper":
+        verts = footprint_parts_at(parts, heading, grow if grow >= 0 else 0.0)
+        t = math.radians(heading)
+        c, s = math.cos(t), math.sin(t)
+        anchor = np.array([c * anchor_local[0] - s * anchor_local[1], s * anchor_local[0] + c * anchor_local[1]])
+        coords, counts, owner = cobstacle_rings(obstacles, verts, anchor)
+        groups = labels[owner] if labels is not None and len(labels) else None
+        comps = _clip_free(coords, counts, groups, region)
+        if comps is not None:
+            return comps
+    cobs = slice_cobstacle(obstacles, parts, heading, grow, anchor_local, labels)
+    return free_components(shapely.difference(region, cobs))
+
+
+def _slice_components(obstacles: ObstacleSet, parts: list[Polygon], heading: float, grow: float,
+                      domain: Polygon, anchor_local: np.ndarray, labels: np.ndarray | None = None) -> np.ndarray:
+    return slice_free(obstacles, parts, heading, grow, anchor_local, domain, labels)
+
+
+# --- process-pool plumbing: the obstacle set is sent once per worker ------------------
+_WORKER: dict = {}
+
+
+def _init_worker(obstacles, domain, labels=None):
+    _WORKER["obstacles"] = obstacles
+    _WORKER["domain"] = domain
+    _WORKER["labels"] = labels
+
+
+def _worker_slice(args):
+    parts, heading, grow, anchor = args
+    return _slice_components(_WORKER["obstacles"], parts, heading, grow, _WORKER["domain"], anchor,
+                             _WORKER.get("labels"))
+
+
+#: Sub-samples per heading cell for the optimistic (inner) footprint.
+OPTIMISTIC_SUBSAMPLES = 8
+
+
+def _inner_footprint(footprint: Polygon, below_deg: float, above_deg: float, curve_tol: float) -> Polygon:
+    """A polygon contained in the footprint at every heading of the cell (vehicle frame at the slice heading).
+
+    The intersection of the footprint rotated to ``OPTIMISTIC_SUBSAMPLES + 1`` headings
+    spanning the cell, shrunk by the largest displacement between samples
+    (2ρ·sin(δ/4), δ the sample spacing) and by the curve tolerance. If the vehicle is
+    clear at some heading of the cell, this inner polygon is clear at the slice heading.
+    """
+    span = below_deg + above_deg
+    inner = footprint
+    if span > 0:
+        angles = np.linspace(-below_deg, above_deg, OPTIMISTIC_SUBSAMPLES + 1)
+        for a in angles:
+            inner = inner.intersection(shapely.affinity.rotate(footprint, float(a), origin=(0, 0)))
+        rho = float(np.max(np.hypot(*shapely.get_coordinates(footprint).T)))
+        erode = rotation_displacement_m(rho, span / OPTIMISTIC_SUBSAMPLES / 2.0) + curve_tol
+    else:
+        erode = curve_tol
+    if erode > 0:
+        inner = inner.buffer(-erode, join_style="mitre")
+    return inner
+
+
+def _inner_parts(inner: Polygon, footprint: Polygon) -> tuple[list[Polygon], np.ndarray]:
+    polys = [g for g in shapely.get_parts(inner) if isinstance(g, Polygon) and g.area > 0]
+    if not polys:   # vehicle smaller than the tolerance: keep a tiny square at its centre
+        c = footprint.representative_point()
+        polys = [box(c.x - 1e-6, c.y - 1e-6, c.x + 1e-6, c.y + 1e-6)]
+    parts = [p for g in polys for p in convex_parts(g)]
+    return parts, np.asarray(polys[0].exterior.coords[0])
+
+
+@dataclass
+class SliceSet:
+    """Free space per heading slice, local frame, metres.
+
+    ``components[k]`` holds slice k's free-space components (shapely Polygons);
+    ``grow_m[k]`` the amount the footprint was grown (sound) or shrunk (optimistic) for
+    slice k; ``tolerance_m`` the largest distance between the footprint used and the true
+    one over all slices (Hausdorff distance, metres).
+    """
+
+    plan: Plan
+    vehicle: Vehicle
+    cells: HeadingCells
+    components: list[np.ndarray]
+    grow_m: np.ndarray
+    bound: str
+    tolerance_m: float
+    domain: Polygon
+    _trees: list = field(default_factory=list, repr=False)
+
+    @property
+    def headings_deg(self) -> np.ndarray:
+        return self.cells.headings
+
+    def __len__(self) -> int:
+        return len(self.cells)
+
+    def tree(self, k: int) -> shapely.STRtree:
+        if not self._trees:
+            self._trees.extend(shapely.STRtree(c) for c in self.components)
+        return self._trees[k]
+
+    def free(self, k: int):
+        """Slice k's free space as one geometry (local frame)."""
+        return shapely.union_all(self.components[k]) if len(self.components[k]) else Polygon()
+
+    def locate(self, x: float, y: float, heading_deg: float) -> tuple[int, int] | None:
+        """(slice, component) whose free space contains local point (x, y) at this heading, or None."""
+        k = self.cells.index_of(heading_deg)
+        if abs(float(wrap_deg(self.cells.headings[k] - heading_deg))) > max(self.cells.max_turn[k], 1e-9) + 1e-9:
+            return None
+        hits = self.tree(k).query(shapely.Point(x, y), predicate="intersects")
+        return (k, int(hits[0])) if len(hits) else None
+
+    def are_free(self, poses) -> np.ndarray:
+        """For (N, 3) local-frame poses (x, y, heading_deg): True where the pose lies in its slice's free space."""
+        poses = np.asarray(poses, dtype=float).reshape(-1, 3)
+        ks = self.cells.indices_of(poses[:, 2])
+        out = np.zeros(len(poses), dtype=bool)
+        for k in np.unique(ks):
+            sel = ks == k
+            pts = shapely.points(poses[sel, 0], poses[sel, 1])
+            idx = self.tree(int(k)).query(pts, predicate="intersects")
+            hit = np.zeros(sel.sum(), dtype=bool)
+            hit[idx[0]] = True
+            out[np.flatnonzero(sel)] = hit
+        return out
+
+    def settings(self) -> dict:
+        """The settings that determine these slices (JSON-ready)."""
+        step = self.cells.step_deg
+        return {"bound": self.bound, "heading_step_deg": step, "headings": int(len(self.cells)),
+                "tolerance_m": round(float(self.tolerance_m), 6), "margin_m": self.vehicle.margin_m,
+                "curve_tolerance_m": self.plan.curve_tolerance_m,
+                "min_component_area_m2": MIN_COMPONENT_AREA_M2}
+
+
+@dataclass
+class SliceRecipe:
+    """What each slice of a :class:`SliceSet` is built from (see :func:`slice_recipe`).
+
+    ``jobs[k] = (convex parts, heading °, grow m, anchor)``: footprint parts (vehicle frame)
+    for slice k, its heading, the mitre offset applied after rotation and the footprint
+    point used to translate non-convex solids. ``grow`` per slice (metres, ≥ 0),
+    ``tolerance`` (metres, see :class:`SliceSet`), ``radius``: the largest distance from
+    the reference point to any footprint point used, ``diameter``: the largest distance
+    between two such points (metres).
+    """
+
+    jobs: list
+    grow: np.ndarray
+    tolerance: float
+    radius: float
+    diameter: float
+
+
+def slice_recipe(plan: Plan, vehicle: Vehicle, cells: HeadingCells, bound: str) -> SliceRecipe:
+    """Footprint parts, offsets and tolerance for every slice of ``cells`` (``bound``: sound / optimistic)."""
+    if bound not in BOUNDS:
+        raise ValueError(f"bound must be one of {BOUNDS}")
+    fp = vehicle.footprint
+    rho = vehicle.radius_m
+    grow = np.array([rotation_displacement_m(rho, t) for t in cells.max_turn]) + plan.curve_tolerance_m
+    parts = convex_parts(fp)
+    if bound == "sound":
+        anchor = np.asarray(fp.exterior.coords[0])
+        # CLIP_GUARD_M: the grid snapping of the integer clipping must not shrink a C-obstacle
+        jobs = [(parts, float(h), float(g) + CLIP_GUARD_M, anchor) for h, g in zip(cells.headings, grow)]
+        gmax = float(grow.max())
+        grown = shapely.union_all([p.buffer(gmax, join_style="mitre", mitre_limit=10.0) for p in parts]) \
+            if gmax > 0 else fp
+        tolerance = float(shapely.hausdorff_distance(grown, fp)) if gmax > 0 else 0.0
+    else:
+        jobs = []
+        cache: dict[tuple, tuple] = {}
+        tolerance = 0.0
+        for h, lo, hi in zip(cells.headings, cells.below, cells.above):
+            key = (round(float(lo), 9), round(float(hi), 9))
+            if key not in cache:
+                inner = _inner_footprint(fp, float(lo), float(hi), plan.curve_tolerance_m)
+                cache[key] = _inner_parts(inner, fp)
+                tolerance = max(tolerance, float(shapely.hausdorff_distance(inner, fp)) if not inner.is_empty
+                                else vehicle.radius_m)
+            p, anchor = cache[key]
+            jobs.append((p, float(h), 0.0, anchor))
+        gmax = 0.0          # the inner footprints lie inside the footprint
+    verts = np.vstack(footprint_parts_at(parts, 0.0, gmax))
+    radius = float(np.max(np.hypot(verts[:, 0], verts[:, 1])))
+    diameter = float(np.max(pdist(verts))) if len(verts) > 1 else 0.0
+    return SliceRecipe(jobs, grow, tolerance, radius, diameter)
+
+
+def slice_domain(bounds: tuple[float, float, float, float], vehicle: Vehicle) -> Polygon:
+    """The rectangle free space is limited to: obstacle ``bounds`` grown by the vehicle radius plus ``DOMAIN_PAD_M``."""
+    x0, y0, x1, y1 = bounds
+    pad = vehicle.radius_m + DOMAIN_PAD_M
+    return box(x0 - pad, y0 - pad, x1 + pad, y1 + pad)
+
+
+def cluster_reach_m(recipe: SliceRecipe) -> float:
+    """Distance (metres) beyond which two obstacles never share a C-obstacle in any slice of ``recipe``."""
+    return recipe.diameter * (1.0 + 1e-9) + 1e-6
+
+
+def run_slice_jobs(obstacles: ObstacleSet, jobs: list, domain: Polygon, labels: np.ndarray | None,
+                   workers: int | None = 1) -> list[np.ndarray]:
+    """Free-space components of every job of a :class:`SliceRecipe`, on ``workers`` processes (None: all cores)."""
+    n_workers = (os.cpu_count() or 1) if workers is None else max(1, int(workers))
+    if n_workers > 1 and len(jobs) >= 8:
+        with ProcessPoolExecutor(max_workers=n_workers, initializer=_init_worker,
+                                 initargs=(obstacles, domain, labels)) as pool:
+            return list(pool.map(_worker_slice, jobs, chunksize=max(1, len(jobs) // (4 * n_workers))))
+    return [_slice_components(obstacles, p, h, g, domain, a, labels) for p, h, g, a in jobs]
+
+
+def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None = None,
+                 extra_headings=(), bound: str = "sound", workers: int | None = 1,
+                 cells: HeadingCells | None = None, obstacles: ObstacleSet | None = None) -> SliceSet:
+    """Build the free configuration space of ``vehicle`` in ``plan``, one slice per heading cell.
+
+    Parameters
+    ----------
+    heading_step_deg : float, optional
+        Uniform heading step, degrees. Default: the coarsest step whose rotation error
+        stays below 1 cm for this vehicle (see :func:`floorfit.cspace.headings.default_step_deg`).
+    extra_headings : iterable of float
+        Headings (degrees) that get a slice of their own (start/goal, docking headings).
+    bound : ``"sound"`` or ``"optimistic"``
+        See the module docstring.
+    workers : int or None
+        Processes for the slices (headings are independent). None: all cores.
+    """
+    if bound not in BOUNDS:
+        raise ValueError(f"bound must be one of {BOUNDS}")
+    if cells is None:
+        cells = choose_headings(plan, vehicle, heading_step_deg=heading_step_deg, extra_headings=extra_headings)
+    obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
+    recipe = slice_recipe(plan, vehicle, cells, bound)
+    domain = slice_domain(obstacles.bounds, vehicle)
+    # obstacles farther apart than the (grown) footprint's diameter never share a C-obstacle
+    labels = obstacle_clusters(obstacles, cluster_reach_m(recipe))
+    comps = run_slice_jobs(obstacles, recipe.jobs, domain, labels, workers)
+    grow = recipe.grow
+    return SliceSet(plan=plan, vehicle=vehicle, cells=cells, components=comps,
+                    grow_m=grow if bound == "sound" else -grow, bound=bound,
+                    tolerance_m=recipe.tolerance, domain=domain)

@@ -1,0 +1,534 @@
+"""Route queries: can the vehicle get from pose A to pose B, and how; if not, where it gets stuck.
+
+Poses at this interface are in the **drawing frame**: (x, y) metres, heading in degrees
+counter-clockwise from +x. Between consecutive waypoints of a returned path the vehicle
+moves by linear interpolation of x, y and of the heading along the shorter arc; every
+pose of that motion is clear of obstacles for the footprint grown by the slice
+enlargement (sound bound, see :mod:`floorfit.cspace.slices`).
+
+Motion modes: ``omni`` and ``fixed`` vehicles get the holonomic path of the
+configuration-space roadmap. ``differential`` and ``car`` vehicles get a path they can
+drive (:mod:`floorfit.motion.drivable`): ``segments`` (rotations in place and straight drives, or
+arcs at the minimum turning radius and straights, each with its direction) and ``path``
+as dense samples of that motion (every ``path_step_m`` / ``path_step_deg``) whose linear
+interpolation is itself collision-free. When the holonomic analysis connects the poses
+but the drive search gives up within its limits, the status is
+``not-found-within-limits`` (never "unreachable"); "unreachable" comes only from the
+holonomic analysis, which bounds every motion mode.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from itertools import pairwise
+from typing import Any
+
+import networkx as nx
+import numpy as np
+import shapely
+import shapely.ops
+from shapely.geometry import Point, Polygon
+
+from floorfit.cspace.cellpath import path_in_polygon, point_inside
+from floorfit.cspace.collision import PoseChecker
+from floorfit.cspace.slices import SliceSet, build_slices, choose_headings
+from floorfit.motion.drivable import (
+    NOT_FOUND,
+    DriveLimits,
+    chord_error_m,
+    drive_tolerance_m,
+    plan_car,
+    plan_differential,
+    segment_dicts,
+)
+from floorfit.errors import InputError
+from floorfit.cspace.headings import arc_deg, wrap_deg
+from floorfit.plan.model import Plan
+from floorfit.cspace.roadmap import build_roadmap
+from floorfit.vehicles.rigid import Vehicle
+
+__all__ = [
+    "DRIVE_MODES",
+    "NOT_FOUND_WITHIN_LIMITS",
+    "STATUSES",
+    "RouteResult",
+    "differential_plan",
+    "find_route",
+    "route_in_slices",
+]
+
+#: Status when the holonomic analysis connects the poses but the drive search gave up.
+NOT_FOUND_WITHIN_LIMITS = NOT_FOUND
+STATUSES = ("reachable", "unreachable", "start-blocked", "goal-blocked", "inconclusive", NOT_FOUND_WITHIN_LIMITS)
+#: Motion modes whose paths are converted to drivable segments.
+DRIVE_MODES = ("differential", "car")
+#: Rotations merged into one waypoint pair stay below this, degrees (so the shorter arc is the one meant).
+_MAX_MERGED_TURN_DEG = 120.0
+
+
+@dataclass
+class RouteResult:
+    """Answer of a route query. ``path``: (N, 3) drawing-frame waypoints [x, y, heading_deg].
+
+    For differential and car vehicles ``segments`` lists the drivable pieces (dicts with
+    ``type`` "straight"/"arc"/"rotate", ``direction`` "forward"/"reverse"/None,
+    ``length_m``, ``angle_deg`` (signed, CCW), ``radius_m`` (arcs), ``start``/``end``
+    drawing-frame poses) and ``path`` samples them densely; ``direction_changes`` counts
+    forward/reverse changes (a three-point turn has two). ``length_m``: distance travelled
+    by the reference point (m); ``rotation_deg``: sum of absolute heading changes.
+    ``search``: what the drive search did (mode, expansions, reason, time).
+    """
+
+    status: str
+    path: np.ndarray
+    tolerance_m: float
+    settings: dict[str, Any]
+    notes: list[str] = field(default_factory=list)
+    stuck: dict[str, Any] | None = None
+    length_m: float = 0.0
+    rotation_deg: float = 0.0
+    cells: list = field(default_factory=list)
+    segments: list[dict] = field(default_factory=list)
+    direction_changes: int = 0
+    search: dict[str, Any] | None = None
+
+    @property
+    def reachable(self) -> bool:
+        return self.status == "reachable"
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "reachable": self.reachable,
+            "status": self.status,
+            "path": [[round(float(x), 6), round(float(y), 6), round(float(h), 4)] for x, y, h in self.path],
+            "length_m": round(self.length_m, 4),
+            "rotation_deg": round(self.rotation_deg, 3),
+            "tolerance_m": round(self.tolerance_m, 6),
+            "segments": self.segments,
+            "direction_changes": int(self.direction_changes),
+            "search": self.search,
+            "settings": self.settings,
+            "stuck": self.stuck,
+            "notes": self.notes,
+        }
+
+
+def _check_pose(name: str, pose) -> tuple[float, float, float]:
+    if len(pose) != 3:
+        raise InputError(f"{name} pose must be x,y,heading (three numbers)", None, name)
+    x, y, h = (float(v) for v in pose)
+    if not all(math.isfinite(v) for v in (x, y, h)):
+        raise InputError(f"{name} pose has a non-finite value {pose!r}", None, name)
+    return x, y, float(wrap_deg(h))
+
+
+def _merge_rotations(path: list[np.ndarray]) -> np.ndarray:
+    """Drop repeated waypoints and merge runs of same-direction rotations in place."""
+    out: list[np.ndarray] = [path[0]]
+    run = 0.0
+    for p in path[1:]:
+        q = out[-1]
+        same_xy = abs(p[0] - q[0]) < 1e-12 and abs(p[1] - q[1]) < 1e-12
+        dh = float(arc_deg(q[2], p[2]))
+        if same_xy and abs(dh) < 1e-12:
+            continue
+        if same_xy and len(out) >= 2:
+            r = out[-2]
+            prev_is_rot = abs(r[0] - q[0]) < 1e-12 and abs(r[1] - q[1]) < 1e-12
+            if prev_is_rot and np.sign(dh) == np.sign(run) and abs(run + dh) < _MAX_MERGED_TURN_DEG:
+                out[-1] = p
+                run += dh
+                continue
+        run = dh if same_xy else 0.0
+        out.append(p)
+    return np.asarray(out)
+
+
+class _Clearance:
+    """Geometry of a route kept ``clearance_m`` inside the free space where the space allows.
+
+    Eroded copies of components and rotation zones are made on demand (round joins, so an
+    eroded polygon lies inside the original). Where the eroded geometry is empty or does
+    not connect the points, the plain geometry is used: the preference never loses a route.
+    """
+
+    def __init__(self, clearance_m: float):
+        self.c = float(clearance_m)
+        self._cache: dict = {}
+
+    def eroded(self, key, geom, fraction: float = 1.0):
+        if self.c <= 0:
+            return None
+        if key not in self._cache:
+            e = geom.buffer(-self.c * fraction) if geom.area > 0 else Polygon()
+            self._cache[key] = None if e.is_empty else e
+        return self._cache[key]
+
+    def point(self, region, near, heading_deg: float | None = None, poly=None) -> np.ndarray:
+        """A rotation point in ``region``: with a heading, the nearest one straight ahead (or behind)
+        of ``near`` on its heading line, kept ``clearance_m`` (or at least half of it) inside, that
+        ``poly`` lets it drive to, so that a base that drives only along its heading needs no
+        extra turn; else the nearest point of the eroded region; else of the region."""
+        e = self.eroded(("zone", region.wkb), region)
+        if heading_deg is not None and poly is not None and self.c > 0:
+            for level in (e, self.eroded(("zone/2", region.wkb), region, 0.5)):
+                q = self._on_heading_line(level, near, heading_deg, poly) if level is not None else None
+                if q is not None:
+                    return q
+        return point_inside(e if e is not None else region, near)
+
+    @staticmethod
+    def _on_heading_line(target, near, heading_deg, poly):
+        t = math.radians(heading_deg)
+        x0, y0, x1, y1 = target.bounds
+        reach = math.hypot(x1 - x0, y1 - y0) + float(Point(near).distance(target)) + 1.0
+        best = None
+        for sign in (1.0, -1.0):
+            far = (near[0] + sign * reach * math.cos(t), near[1] + sign * reach * math.sin(t))
+            hit = shapely.intersection(shapely.LineString([near, far]), target)
+            if hit.is_empty:
+                continue
+            q = shapely.ops.nearest_points(hit, Point(near))[0]
+            q = np.array([q.x, q.y])
+            d = float(np.hypot(*(q - np.asarray(near))))
+            if (best is None or d < best[0]) and target.covers(Point(q)) \
+                    and (d < 1e-12 or poly.covers(shapely.LineString([near, q]))):
+                best = (d, q)
+        return None if best is None else best[1]
+
+    def leg(self, key, poly, a, b) -> np.ndarray | None:
+        """Waypoints from a to b inside ``poly``, through its eroded copy where possible."""
+        e = self.eroded(key, poly)
+        if e is not None:
+            a2, b2 = point_inside(e, a), point_inside(e, b)
+            ends_ok = all(np.allclose(p, q) or poly.covers(shapely.LineString([p, q])) for p, q in ((a, a2), (b2, b)))
+            part = e
+            if ends_ok and not isinstance(e, Polygon):
+                parts = [g for g in shapely.get_parts(e) if g.covers(Point(a2))]
+                part = parts[0] if parts else None
+            if ends_ok and part is not None:
+                inner = path_in_polygon(part, a2, b2)
+                if inner is not None:
+                    pts = [np.asarray(a, dtype=float)] + list(inner) + [np.asarray(b, dtype=float)]
+                    keep = [pts[0]] + [p for prev, p in pairwise(pts) if not np.allclose(prev, p, atol=1e-12)]
+                    return np.asarray(keep)
+        return path_in_polygon(poly, a, b)
+
+
+def route_in_slices(slices: SliceSet, G: nx.Graph, start_local, goal_local, *,
+                    clearance_m: float = 0.0) -> tuple[str, np.ndarray | None, dict]:
+    """Search ``G`` (roadmap of ``slices``) between two local-frame poses.
+
+    Returns (status, local path (N, 3) or None, info). Status: "reachable", "unreachable",
+    "start-outside" or "goal-outside" (the pose is not in its slice's free space).
+    With ``clearance_m`` > 0 the path keeps that far (m) inside the free space of each
+    slice where it can (legs and rotation points), which leaves room for a vehicle that
+    must deviate from it (differential bases), and rotation points are put on the
+    current heading line where the free space allows (a drive without an extra turn).
+    """
+    s = slices.locate(*start_local)
+    if s is None:
+        return "start-outside", None, {}
+    g = slices.locate(*goal_local)
+    if g is None:
+        return "goal-outside", None, {"start_node": s}
+    try:
+        nodes = nx.dijkstra_path(G, s, g, weight="weight")
+    except nx.NetworkXNoPath:
+        return "unreachable", None, {"start_node": s, "goal_node": g}
+    room = _Clearance(clearance_m)
+    heads = slices.cells.headings
+    pos = np.array(start_local[:2], dtype=float)
+    path: list[np.ndarray] = [np.array([pos[0], pos[1], start_local[2]])]
+    edges = list(pairwise(nodes))
+    i = 0
+    while i < len(edges):
+        # rotate through as many consecutive slices as possible at one point: the
+        # intersection of their rotation zones
+        region = G.edges[edges[i]]["zone"]
+        j = i + 1
+        while j < len(edges):
+            nxt = shapely.intersection(region, G.edges[edges[j]]["zone"])
+            if nxt.area <= 1e-6:
+                break
+            region, j = nxt, j + 1
+        u = edges[i][0]
+        h_u = start_local[2] if u == s else heads[u[0]]
+        p = room.point(region, pos, h_u, slices.components[u[0]][u[1]])
+        leg = room.leg(u, slices.components[u[0]][u[1]], pos, p)
+        if leg is None:
+            return "unreachable", None, {"error": f"no path inside cell {u}"}
+        path.extend(np.array([x, y, h_u]) for x, y in leg[1:])
+        for _, v in edges[i:j]:
+            path.append(np.array([p[0], p[1], heads[v[0]]]))
+        pos = p
+        i = j
+    comp = slices.components[g[0]][g[1]]
+    leg = room.leg(g, comp, pos, goal_local[:2])
+    if leg is None:
+        return "unreachable", None, {"error": "no path inside the goal cell"}
+    h_g = heads[g[0]] if len(nodes) > 1 else start_local[2]
+    path.extend(np.array([x, y, h_g]) for x, y in leg[1:])
+    path.append(np.array(goal_local, dtype=float))
+    return "reachable", _merge_rotations(path), {"nodes": nodes}
+
+
+def _closest_approach(slices: SliceSet, G: nx.Graph, start_node, goal_local) -> dict:
+    """Where the part of the roadmap reachable from the start comes closest to the goal position."""
+    best = None
+    gp = Point(goal_local[:2])
+    for k, i in nx.node_connected_component(G, start_node):
+        comp = slices.components[k][i]
+        d = comp.distance(gp)
+        if best is None or d < best[0]:
+            best = (d, k, i)
+    d, k, i = best
+    q = shapely.ops.nearest_points(slices.components[k][i], gp)[0]
+    x, y = slices.plan.to_drawing(q.x, q.y)
+    return {"x": round(x, 4), "y": round(y, 4), "heading_deg": round(float(slices.cells.headings[k]), 3),
+            "distance_to_goal_m": round(float(d), 4)}
+
+
+def find_route(plan: Plan, vehicle: Vehicle, start, goal, *, heading_step_deg: float | None = None,
+               workers: int | None = 1, slices: SliceSet | None = None, roadmap: nx.Graph | None = None,
+               check_optimistic: bool = True, limits: DriveLimits | None = None) -> RouteResult:
+    """Find a collision-free motion from ``start`` to ``goal`` (drawing-frame poses, metres/degrees).
+
+    Status: ``reachable`` (path given, sound), ``unreachable`` (not even the optimistic
+    bound connects them: the vehicle shrunk by ``tolerance_m`` could not do it either),
+    ``inconclusive`` (the sound bound fails but the optimistic one does not: the answer
+    depends on less than ``tolerance_m``), ``start-blocked`` / ``goal-blocked`` (that pose
+    itself collides), ``not-found-within-limits`` (differential and car vehicles only: the
+    holonomic analysis connects the poses, the drive search gave up within ``limits``).
+
+    For ``differential`` and ``car`` vehicles the path is drivable in that mode (see the
+    module docstring); ``limits`` (:class:`floorfit.motion.drivable.DriveLimits`) sets the sample
+    spacing and the search limits. ``tolerance_m`` then states how much the drive checks
+    may have grown the vehicle (:func:`floorfit.motion.drivable.drive_tolerance_m`).
+    """
+    sx, sy, sh = _check_pose("start", start)
+    gx, gy, gh = _check_pose("goal", goal)
+    s_loc = (*plan.to_local(sx, sy), sh)
+    g_loc = (*plan.to_local(gx, gy), gh)
+    if vehicle.mode == "fixed":
+        fixed = vehicle.fixed_heading_deg if vehicle.fixed_heading_deg is not None else sh
+        for name, h in (("start", sh), ("goal", gh)):
+            if abs(float(arc_deg(fixed, h))) > 1e-6:
+                raise InputError(f"vehicle '{vehicle.name}' never rotates (mode fixed, heading {fixed:g}°); "
+                                 f"the {name} heading {h:g}° cannot be reached", None, name)
+    if slices is None:
+        cells = choose_headings(plan, vehicle, heading_step_deg=heading_step_deg, extra_headings=(sh, gh))
+        slices = build_slices(plan, vehicle, cells=cells, workers=workers)
+    G = roadmap if roadmap is not None else build_roadmap(slices)
+    settings = slices.settings()
+    result = RouteResult(status="unreachable", path=np.zeros((0, 3)), tolerance_m=slices.tolerance_m,
+                         settings=settings)
+    checker = PoseChecker(plan, vehicle.footprint)
+    hit = checker.collides([s_loc, g_loc])
+    if hit[0]:
+        result.status = "start-blocked"
+        result.notes.append("the vehicle at the start pose overlaps an obstacle")
+        return result
+    if hit[1]:
+        result.status = "goal-blocked"
+        result.notes.append("the vehicle at the goal pose overlaps an obstacle")
+        return result
+    status, path, info = route_in_slices(slices, G, s_loc, g_loc)
+    if status == "reachable":
+        result.status = "reachable"
+        drawing = path.copy()
+        drawing[:, 0] += plan.origin[0]
+        drawing[:, 1] += plan.origin[1]
+        result.path = drawing
+        result.length_m = float(np.sum(np.hypot(*np.diff(path[:, :2], axis=0).T)))
+        result.rotation_deg = float(np.sum(np.abs(arc_deg(path[:-1, 2], path[1:, 2]))))
+        result.cells = [list(n) for n in info["nodes"]]
+        if vehicle.mode in DRIVE_MODES:
+            _drive(result, plan, vehicle, slices, G, path, s_loc, g_loc, limits or DriveLimits())
+        return result
+    if status in ("start-outside", "goal-outside"):
+        which = "start" if status == "start-outside" else "goal"
+        result.notes.append(f"the {which} pose is clear of obstacles but by less than the tolerance "
+                            f"({slices.tolerance_m:.3f} m), so it cannot be proven reachable")
+    if "start_node" in info:
+        result.stuck = _closest_approach(slices, G, info["start_node"], g_loc)
+    result.status = "unreachable"
+    if check_optimistic and vehicle.mode != "fixed":
+        opt = build_slices(plan, vehicle, cells=slices.cells, bound="optimistic", workers=workers)
+        ostatus, _, _ = route_in_slices(opt, build_roadmap(opt), s_loc, g_loc)
+        if ostatus == "reachable":
+            result.status = "inconclusive"
+            result.notes.append(f"might fit: with the vehicle shrunk by the tolerance ({slices.tolerance_m:.3f} m) "
+                                f"a route exists; refine the heading step to decide")
+    elif status != "unreachable" and vehicle.mode == "fixed":
+        result.status = "inconclusive"
+    if vehicle.mode in DRIVE_MODES and result.status == "unreachable":
+        result.notes.append(f"no motion at all connects the poses, so no {vehicle.mode} path exists either")
+    return result
+
+
+def _controllable(vehicle: Vehicle) -> bool:
+    """Small-time locally controllable (Laumond et al., IEEE T-RA 10(5), 1994): a base that
+    rotates in place and may reverse, or a car that may reverse."""
+    return vehicle.mode in DRIVE_MODES and vehicle.reverse
+
+
+#: A differential base follows a holonomic route kept this many check margins inside the free space.
+ROUTE_CLEARANCE_MARGINS = 3.0
+
+
+#: Escape and approach drives tried when a differential base cannot follow the route from its
+#: start (or into its goal) directly: these multiples of the vehicle length, straight along the heading.
+ESCAPE_LENGTHS = (0.5, 1.0, 2.0)
+#: At most this many escape/approach combinations are tried.
+MAX_ESCAPE_TRIES = 12
+#: An escape whose path has at most this many segments is taken at once; otherwise the tries
+#: go on and the path with the fewest segments wins.
+ESCAPE_GOOD_SEGMENTS = 12
+#: Pose-check budget of each retried conversion.
+ESCAPE_MAX_CHECKS = 300_000
+
+
+def _along(pose_deg, d: float) -> tuple[float, float, float]:
+    h = math.radians(pose_deg[2])
+    return (pose_deg[0] + d * math.cos(h), pose_deg[1] + d * math.sin(h), float(pose_deg[2]))
+
+
+def _convert(slices, G, way_fallback, s_loc, g_loc, reverse, limits, check, clearance):
+    """rotate-and-drive along the roomy route, then along the plain one."""
+    tries = []
+    st, roomy, _ = route_in_slices(slices, G, s_loc, g_loc, clearance_m=clearance)
+    if st == "reachable":
+        tries.append(roomy)
+    if way_fallback is None:
+        st, way_fallback, _ = route_in_slices(slices, G, s_loc, g_loc)
+        way_fallback = way_fallback if st == "reachable" else None
+    if way_fallback is not None:
+        tries.append(way_fallback)
+    dp = None
+    for way in tries:
+        dp = plan_differential(slices, way, reverse=reverse, limits=limits, check=check)
+        if dp.found:
+            break
+    return dp
+
+
+def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray | None, s_loc, g_loc,
+                      *, reverse: bool, limits: DriveLimits, check=None):
+    """Rotate-and-drive plan for a differential base (local frame; poses in degrees).
+
+    Follows the holonomic route recomputed with a clearance of a few check margins
+    (room to deviate from it); if that fails, the plain holonomic route
+    ``holonomic_local`` (when given). If neither works (typically a start or goal beside a
+    wall where the route slides sideways and the base cannot turn), it tries driving
+    straight out of the start along its heading and straight into the goal
+    (:data:`ESCAPE_LENGTHS` vehicle lengths, forward and, with ``reverse``, backward) and
+    converting the route between those poses. Returns a :class:`floorfit.motion.drivable.DrivePlan`.
+    ``check``: a shared :class:`floorfit.motion.drivable.SliceMotionCheck` (optional).
+    """
+    from dataclasses import replace
+
+    from floorfit.motion.drivable import FOUND, DrivePlan, SliceMotionCheck, finish_plan
+    from floorfit.motion import merge_segments, sample, straight
+
+    check = check or SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg)
+    clearance = ROUTE_CLEARANCE_MARGINS * 0.5 * limits.check_step_m
+    dp = _convert(slices, G, holonomic_local, s_loc, g_loc, reverse, limits, check, clearance)
+    if dp is None or dp.found:
+        return dp
+    length = slices.vehicle.length_m
+    signs = (1.0, -1.0) if reverse else (1.0,)
+    moves = [0.0] + [sg * f * length for f in ESCAPE_LENGTHS for sg in signs]
+    combos = sorted(((a, b) for a in moves for b in moves if a or b), key=lambda ab: abs(ab[0]) + abs(ab[1]))
+    retry = replace(limits, max_checks=min(limits.max_checks, ESCAPE_MAX_CHECKS))
+
+    def drive_free(pose_deg, d):
+        seg = straight((pose_deg[0], pose_deg[1], math.radians(pose_deg[2])), d)
+        return seg if bool(check.is_free(sample([seg], limits.check_step_m, limits.check_step_deg)).all()) else None
+
+    out_ok: dict = {}
+    in_ok: dict = {}
+    tried = 0
+    best = None
+    for a, b in combos:
+        if tried >= MAX_ESCAPE_TRIES:
+            break
+        if a not in out_ok:
+            out_ok[a] = drive_free(s_loc, a) if a else None
+        g2 = _along(g_loc, -b)
+        if b not in in_ok:
+            in_ok[b] = drive_free(g2, b) if b else None
+        if (a and out_ok[a] is None) or (b and in_ok[b] is None):
+            continue
+        tried += 1
+        s2 = _along(s_loc, a)
+        mid = _convert(slices, G, None, s2, g2, reverse, retry, check, clearance)
+        if mid is None or not mid.found:
+            continue
+        segs = ([out_ok[a]] if a else []) + list(mid.segments) + ([in_ok[b]] if b else [])
+        # the pieces meet at s2 / g2 up to rounding; rebuild the end drive from where the middle ended
+        if b:
+            end = segs[-2].end if len(segs) > 1 else segs[0].start
+            segs[-1] = straight(end, b)
+        segs = merge_segments(segs)
+        if best is None or len(segs) < len(best[0]):
+            best = (segs, a, b, mid)
+        if len(segs) <= ESCAPE_GOOD_SEGMENTS:
+            break
+    if best is None:
+        return dp
+    segs, a, b, mid = best
+    found = DrivePlan(FOUND, segments=segs,
+                      reason=f"rotate-and-drive along the holonomic route after driving {a:+.2f} m out of the "
+                             f"start and before driving {b:+.2f} m into the goal",
+                      elapsed_s=dp.elapsed_s + mid.elapsed_s, poses_checked=dp.poses_checked + mid.poses_checked)
+    return finish_plan(found, check, limits, s_loc, g_loc)
+
+
+def _drive(result: RouteResult, plan: Plan, vehicle: Vehicle, slices: SliceSet, G: nx.Graph,
+           holonomic_local: np.ndarray, s_loc, g_loc, limits: DriveLimits) -> None:
+    """Replace the holonomic answer in ``result`` by a drivable one (or not-found-within-limits)."""
+    if vehicle.mode == "car":
+        dp = plan_car(slices, vehicle, s_loc, g_loc, limits=limits)
+        radius = vehicle.min_turn_radius_m
+    else:
+        dp = differential_plan(slices, G, holonomic_local, s_loc, g_loc, reverse=vehicle.reverse, limits=limits)
+        radius = None
+    result.search = {"mode": vehicle.mode, "reverse": vehicle.reverse, "min_turn_radius_m": radius,
+                     "status": dp.status, "reason": dp.reason, "expansions": dp.expansions,
+                     "poses_checked": dp.poses_checked, "elapsed_s": round(dp.elapsed_s, 3)}
+    result.settings = dict(result.settings)
+    result.settings.update({
+        "motion_mode": vehicle.mode, "check_step_m": limits.check_step_m, "check_step_deg": limits.check_step_deg,
+        "path_step_m": limits.path_step_m, "path_step_deg": limits.path_step_deg,
+        "max_expansions": limits.max_expansions, "time_limit_s": limits.time_limit_s,
+        "slice_tolerance_m": round(float(slices.tolerance_m), 6),
+        # linear interpolation between path samples vs the true motion (reference point), metres
+        "interpolation_error_m": round(chord_error_m(radius, limits.path_step_m), 9),
+    })
+    result.tolerance_m = drive_tolerance_m(slices, limits, radius)
+    result.settings["tolerance_m"] = round(float(result.tolerance_m), 6)
+    if not dp.found:
+        result.status = NOT_FOUND_WITHIN_LIMITS
+        result.path = np.zeros((0, 3))
+        result.length_m = result.rotation_deg = 0.0
+        result.notes.append(f"{vehicle.mode} search: {dp.reason}")
+        if _controllable(vehicle):
+            result.notes.append("the holonomic analysis connects the poses and this vehicle is small-time locally "
+                                "controllable, so a drivable path exists; raise the search limits to find it")
+        else:
+            result.notes.append("the holonomic analysis connects the poses, but a vehicle that cannot reverse may "
+                                "still be unable to follow; no answer either way within the limits")
+        return
+    drawing = dp.samples.copy()
+    drawing[:, 0] += plan.origin[0]
+    drawing[:, 1] += plan.origin[1]
+    result.path = drawing
+    result.segments = segment_dicts(dp.segments, plan.origin)
+    result.direction_changes = dp.direction_changes
+    result.length_m = dp.length_m
+    result.rotation_deg = dp.rotation_deg
+    if dp.goal_error_m > 1e-6 or dp.goal_error_deg > 1e-6:
+        result.notes.append(f"the path ends {dp.goal_error_m:.3f} m and {dp.goal_error_deg:.2f}° from the goal "
+                            f"(goal tolerance {limits.goal_tolerance_m:g} m, {limits.goal_tolerance_deg:g}°)")

@@ -1,0 +1,241 @@
+"""Site files: the stations a vehicle must serve, layer roles and the clearance asked for.
+
+Site file (TOML, metres and degrees, drawing frame)::
+
+    station_layer = "X-STATION"    # optional: POINTs / block INSERTs on this layer are stations
+
+    [stations]
+    DOCK = { x = 15.0, y = 2.2, heading = -90.0 }    # heading: must arrive at it (docking)
+    PICK-A = { x = 6.5, y = 11.0 }                   # no heading: any heading will do
+
+    [clearance]
+    required = 0.45                 # metres between the vehicle outline and obstructions
+    reference = "ANSI/ITSDF B56.5 §4.7.4"
+
+    [analysis]
+    heading_step = 2.0              # degrees (default: from the vehicle size)
+    person_width = 0.5              # metres a person needs to walk through (default 0.5)
+
+    [layers]                        # layer-name pattern → role (see the import notes)
+    "A-EQPM-RACK" = "solid"
+
+    [report]
+    routes = [["DOCK", "PICK-A"]]   # station pairs whose swept path the report draws
+
+    [heights]                       # layer-name pattern → [bottom, top] above the floor, metres
+    "M-CONV-OVHD" = [2.1, 2.6]      # an overhead conveyor: only vehicles taller than 2.1 m meet it
+    "A-DOOR-HEAD" = [2.1, 1e9]      # a door header: 2.1 m and up
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from floorfit.errors import InputError, SiteError
+from floorfit.plan.stations import Station
+from floorfit.tomlcheck import check_keys, get_number, get_string, read_toml
+
+__all__ = ["Site", "read_site", "parse_station_flag", "apply_height_ranges", "CLEARANCE_REFERENCES", "DEFAULT_PERSON_WIDTH_M",
+           "DEFAULT_HEADING_TOLERANCE_DEG", "stations_from_drawing"]
+
+#: Width of floor a person needs to walk through, metres (common practice: shoulder width
+#: of an adult is about 0.45–0.5 m).
+DEFAULT_PERSON_WIDTH_M = 0.5
+#: How closely a docking heading must be met, degrees (common practice for AMR docking).
+DEFAULT_HEADING_TOLERANCE_DEG = 5.0
+
+#: Clearance references a user may pick; values are settings, not law (see the cautions).
+CLEARANCE_REFERENCES = {
+    "b56.5": (0.45, "ANSI/ITSDF B56.5 §4.7.4: 450 mm between obstructions and the vehicle with its load"),
+    "ada-route": (0.9144, "ADA 2010 Standards §403.5.1: 36 in clear width of an accessible route"),
+    "none": (0.0, "no clearance required beyond the vehicle's own margin"),
+}
+DEFAULT_CLEARANCE = "b56.5"
+
+_TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights", "report")
+_REPORT = ("routes",)
+_STATION = ("x", "y", "heading", "heading_tolerance")
+_CLEARANCE = ("required", "reference")
+_ANALYSIS = ("heading_step", "person_width")
+_NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 _.\-/#]{0,63}$")
+
+
+@dataclass
+class Site:
+    """Settings from a site file (or defaults)."""
+
+    path: str | None = None
+    stations: list[Station] = field(default_factory=list)
+    station_layer: str | None = None
+    roles: dict[str, Any] | None = None
+    required_clearance_m: float = CLEARANCE_REFERENCES[DEFAULT_CLEARANCE][0]
+    clearance_reference: str = CLEARANCE_REFERENCES[DEFAULT_CLEARANCE][1]
+    heading_step_deg: float | None = None
+    person_width_m: float = DEFAULT_PERSON_WIDTH_M
+    heights: dict[str, tuple[float, float]] = field(default_factory=dict)
+    routes: list[tuple[str, str]] = field(default_factory=list)
+
+
+def _check_name(name: str, path: str | None, where: str, error=SiteError) -> str:
+    if not _NAME_RE.match(name):
+        raise error(f"station name '{name}' must start with a letter or digit and use only letters, digits, "
+                    f"spaces and _ . - / # (at most 64 characters)", path, where)
+    return name
+
+
+def read_site(path: str | Path) -> Site:
+    """Read and validate a site file. Raises :class:`SiteError` naming the file and key."""
+    from floorfit.plan.dxf.roles import roles_from_site_table
+
+    src = str(path)
+    data = read_toml(path, SiteError)
+    check_keys(data, _TOP, src, "", SiteError)
+    site = Site(path=src)
+    site.station_layer = get_string(data, "station_layer", src, "", SiteError)
+    site.roles = roles_from_site_table({k: data[k] for k in ("layers", "blocks") if k in data}, src) or None
+    stations = data.get("stations", {})
+    if not isinstance(stations, dict):
+        raise SiteError("[stations] must be a table of NAME = { x = .., y = .. }", src, "stations")
+    for name, spec in stations.items():
+        where = f"stations.{name}"
+        _check_name(name, src, where)
+        if not isinstance(spec, dict):
+            raise SiteError("expected { x = .., y = .. [, heading = ..] }", src, where)
+        check_keys(spec, _STATION, src, where + ".", SiteError)
+        x = get_number(spec, "x", src, where + ".", SiteError, required=True)
+        y = get_number(spec, "y", src, where + ".", SiteError, required=True)
+        h = get_number(spec, "heading", src, where + ".", SiteError, minimum=-360, maximum=360)
+        tol = get_number(spec, "heading_tolerance", src, where + ".", SiteError,
+                         default=DEFAULT_HEADING_TOLERANCE_DEG, minimum=0.0, maximum=180.0)
+        site.stations.append(Station(name, x, y, h, tol))
+    clearance = data.get("clearance", {})
+    if not isinstance(clearance, dict):
+        raise SiteError("[clearance] must be a table", src, "clearance")
+    check_keys(clearance, _CLEARANCE, src, "clearance.", SiteError)
+    ref = get_string(clearance, "reference", src, "clearance.", SiteError)
+    req = get_number(clearance, "required", src, "clearance.", SiteError, minimum=0.0, maximum=10.0)
+    if ref is not None and ref.lower() in CLEARANCE_REFERENCES and req is None:
+        req, ref = CLEARANCE_REFERENCES[ref.lower()]
+    if req is not None:
+        site.required_clearance_m = req
+        site.clearance_reference = ref or "site file"
+    report = data.get("report", {})
+    if not isinstance(report, dict):
+        raise SiteError("[report] must be a table", src, "report")
+    check_keys(report, _REPORT, src, "report.", SiteError)
+    for i, pair in enumerate(report.get("routes", [])):
+        if not (isinstance(pair, list) and len(pair) == 2 and all(isinstance(n, str) for n in pair)):
+            raise SiteError(f"route {i + 1} must be [\"FROM\", \"TO\"] station names, got {pair!r}", src,
+                            "report.routes")
+        site.routes.append((pair[0], pair[1]))
+    heights = data.get("heights", {})
+    if not isinstance(heights, dict):
+        raise SiteError("[heights] must be a table of layer pattern = [bottom, top]", src, "heights")
+    for pattern, rng in heights.items():
+        where = f"heights.{pattern}"
+        if (not isinstance(rng, list) or len(rng) != 2
+                or any(isinstance(v, bool) or not isinstance(v, (int, float)) for v in rng)):
+            raise SiteError(f"expected [bottom, top] in metres, got {rng!r}", src, where)
+        lo, hi = float(rng[0]), float(rng[1])
+        if not (math.isfinite(lo) and lo >= 0 and hi > lo):
+            raise SiteError(f"need 0 ≤ bottom < top (metres), got [{lo:g}, {hi:g}]", src, where)
+        site.heights[pattern] = (lo, hi)
+    analysis = data.get("analysis", {})
+    if not isinstance(analysis, dict):
+        raise SiteError("[analysis] must be a table", src, "analysis")
+    check_keys(analysis, _ANALYSIS, src, "analysis.", SiteError)
+    site.heading_step_deg = get_number(analysis, "heading_step", src, "analysis.", SiteError,
+                                       minimum=0.1, maximum=90.0)
+    site.person_width_m = get_number(analysis, "person_width", src, "analysis.", SiteError,
+                                     default=DEFAULT_PERSON_WIDTH_M, minimum=0.1, maximum=3.0)
+    return site
+
+
+def apply_height_ranges(plan, ranges: dict[str, tuple[float, float]]):
+    """A copy of ``plan`` whose obstacles on layers matching a pattern get that height range.
+
+    Patterns are shell patterns, case-insensitive, matched against the obstacle's layer
+    (a bound-xref prefix stripped). Later patterns win. Heights read from the drawing
+    (elevation and thickness) are kept for layers no pattern matches.
+    """
+    import fnmatch
+
+    import numpy as np
+
+    if not ranges:
+        return plan
+    wh = plan.wall_heights.copy()
+    sh = plan.solid_heights.copy()
+
+    def strip(name: str) -> str:
+        name = str(name)
+        return name.rsplit("$0$", 1)[-1].rsplit("|", 1)[-1].lower()
+
+    for pattern, (lo, hi) in ranges.items():
+        pat = pattern.lower()
+        for heights, layers in ((wh, plan.wall_layers), (sh, plan.solid_layers)):
+            if not len(layers):
+                continue
+            hit = np.array([fnmatch.fnmatchcase(strip(n), pat) for n in layers], dtype=bool)
+            heights[hit] = (lo, hi)
+    return plan.with_heights(wh, sh)
+
+
+def parse_station_flag(text: str) -> Station:
+    """``NAME=X,Y[,HEADING]`` from the command line (metres, degrees, drawing frame)."""
+    if "=" not in text:
+        raise InputError(f"station must be NAME=X,Y[,HEADING], got '{text}'", None, "--station")
+    name, _, rest = text.partition("=")
+    name = name.strip()
+    _check_name(name, None, "--station", InputError)
+    parts = [p.strip() for p in rest.split(",")]
+    if len(parts) not in (2, 3):
+        raise InputError(f"station {name} must be NAME=X,Y[,HEADING], got '{text}'", None, "--station")
+    try:
+        vals = [float(p) for p in parts]
+    except ValueError:
+        raise InputError(f"station {name} has a value that is not a number: '{rest}'", None, "--station") from None
+    if not all(math.isfinite(v) for v in vals):
+        raise InputError(f"station {name} has a non-finite value: '{rest}'", None, "--station")
+    return Station(name, vals[0], vals[1], vals[2] if len(vals) == 3 else None, DEFAULT_HEADING_TOLERANCE_DEG)
+
+
+def stations_from_drawing(plan_path: str | Path, layer: str, metres_per_unit: float) -> list[Station]:
+    """POINT entities and block INSERTs on ``layer`` as stations (drawing frame, metres).
+
+    A station is named by the insert's first attribute, else by the block name and a
+    running number; points are named S1, S2, … in drawing order.
+    """
+    import fnmatch
+
+    import ezdxf
+
+    doc = ezdxf.readfile(str(plan_path))
+    out: list[Station] = []
+    n = 0
+    for e in doc.modelspace():
+        if not fnmatch.fnmatch(e.dxf.layer.lower(), layer.lower()):
+            continue
+        kind = e.dxftype()
+        if kind == "POINT":
+            n += 1
+            x, y = e.dxf.location.x, e.dxf.location.y
+            name = f"S{n}"
+            heading = None
+        elif kind == "INSERT":
+            n += 1
+            x, y = e.dxf.insert.x, e.dxf.insert.y
+            attribs = [a.dxf.text.strip() for a in e.attribs if a.dxf.text.strip()]
+            name = attribs[0] if attribs else f"{e.dxf.name}-{n}"
+            heading = float(e.dxf.rotation)
+        else:
+            continue
+        name = re.sub(r"[^A-Za-z0-9 _.\-/#]", "_", name)[:64] or f"S{n}"
+        out.append(Station(name, x * metres_per_unit, y * metres_per_unit, heading, DEFAULT_HEADING_TOLERANCE_DEG))
+    if not out:
+        raise SiteError(f"no POINT or INSERT found on station layer '{layer}'", str(plan_path), "station_layer")
+    return out
