@@ -25,7 +25,7 @@ from typing import Any
 
 from floorfit.plan.stations import Station
 
-__all__ = ["Station", "Finding", "CheckResult", "FINDING_KINDS"]
+__all__ = ["Station", "Finding", "CheckResult", "FINDING_KINDS", "rank_findings"]
 
 FINDING_KINDS = ("blocked", "no-turn", "tight", "maneuver")
 
@@ -100,3 +100,16 @@ class CheckResult:
         """True when every station reaches every other and no ``blocked`` finding stands."""
         all_ok = all(v for row in self.reachable.values() for v in row.values())
         return all_ok and not any(f.kind == "blocked" for f in self.findings)
+
+
+def rank_findings(findings: list[Finding]) -> list[Finding]:
+    """Order findings (what cuts off stations first, then by kind and place) and number them F1, F2, …"""
+    order = {"blocked": 0, "no-turn": 1, "tight": 2, "maneuver": 3}
+
+    def key(f: Finding):
+        return (0 if f.cuts_off else 1, -len(f.cuts_off), order.get(f.kind, 9), round(f.x, 3), round(f.y, 3))
+
+    ranked = sorted(findings, key=key)
+    for i, f in enumerate(ranked, 1):
+        f.id = f"F{i}"
+    return ranked

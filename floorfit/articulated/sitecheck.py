@@ -22,15 +22,15 @@ from typing import Any
 import networkx as nx
 import numpy as np
 
-from floorfit.errors import FloorfitError
 from floorfit.analysis.findings import Finding, Station
 from floorfit.analysis.naming import place_name
-from floorfit.plan.model import Plan
 from floorfit.articulated.kinematics import follow, jack_knife_radius
 from floorfit.articulated.search import SearchSettings, TrainPlanResult, cart_pose, plan_forward
 from floorfit.articulated.sweep import MotionVerdict, TrainChecker, judge_motion, off_tracking_m, swept_geometry
-from floorfit.vehicles.train import Train
 from floorfit.articulated.turnaround import TurnCircle, turn_circle, turnaround_region
+from floorfit.errors import FloorfitError
+from floorfit.plan.model import Plan
+from floorfit.vehicles.train import Train
 
 __all__ = [
     "START_HEADINGS_DEG",
@@ -97,9 +97,8 @@ def _starts(train: Train, checker: TrainChecker, st_local, heading_deg: float | 
 
 
 def _tractor_reach(plan: Plan, train: Train, stations: list[Station]) -> dict[str, dict[str, bool]]:
-    from floorfit.cspace.roadmap import station_nodes
+    from floorfit.cspace.roadmap import build_roadmap, station_nodes
     from floorfit.cspace.slices import build_slices, choose_headings
-    from floorfit.cspace.roadmap import build_roadmap
 
     extra = [s.heading_deg for s in stations if s.heading_deg is not None]
     slices = build_slices(plan, train.tractor, cells=choose_headings(plan, train.tractor, extra_headings=extra))
@@ -323,7 +322,7 @@ def merge_into_result(result, tc: TrainCheck) -> None:
     routes) and ``turnability["train_turns_around"]`` (local turn centres), and records the train
     and its forward reachability in ``settings``.
     """
-    from floorfit.analysis.check import rank_findings
+    from floorfit.analysis.findings import rank_findings
 
     result.findings = rank_findings(list(result.findings) + list(tc.findings))
     names = list(result.reachable)
