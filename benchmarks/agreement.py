@@ -69,8 +69,8 @@ def _match_findings(fa, fb, tol: float) -> dict:
 
 def run_case(size: str, fp: str, check: bool) -> dict:
     import floorfit
-    from floorfit.cspace import slices as cspace
     from floorfit.analysis.check import run_check
+    from floorfit.cspace import slices as cspace
     from floorfit.cspace.headings import HeadingCells, make_heading_cells
     from floorfit.plan.site import read_site
 

@@ -32,10 +32,10 @@ def main(argv: list[str]) -> int:
     import shapely
 
     import floorfit
-    from floorfit.cspace.slices import build_slices, obstacles_for
     from floorfit.cspace.headings import make_heading_cells
     from floorfit.cspace.incremental import update_slices
     from floorfit.cspace.roadmap import build_roadmap
+    from floorfit.cspace.slices import build_slices, obstacles_for
     from floorfit.plan.site import read_site
 
     from .baseline import brute_force_seconds_per_pose, grid_pose_count

@@ -10,8 +10,9 @@ from __future__ import annotations
 import difflib
 import math
 import tomllib
+from collections.abc import Iterable
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Any
 
 from floorfit.errors import FloorfitError
 

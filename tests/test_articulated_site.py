@@ -7,6 +7,8 @@ import pytest
 import shapely
 from shapely.geometry import Point
 
+from floorfit.analysis.check import run_check
+from floorfit.analysis.findings import Station
 from floorfit.articulated import (
     SearchSettings,
     TrainChecker,
@@ -19,13 +21,11 @@ from floorfit.articulated import (
     turn_circle,
     turnaround_region,
 )
-from floorfit.analysis.check import run_check
 from floorfit.cli import main
-from floorfit.analysis.findings import Station
+from floorfit.motion.route_query import find_route
 from floorfit.motion.segments import arc
 from floorfit.motion.swept import swept_annulus
 from floorfit.plan.model import Plan
-from floorfit.motion.route_query import find_route
 from floorfit.plan.site import Site
 from floorfit.vehicles.rigid import rectangle_vehicle
 

@@ -5,8 +5,8 @@ import math
 import pytest
 
 from floorfit.articulated import is_train_file, load_train
-from floorfit.vehicles.loading import split_vehicle_file
 from floorfit.errors import VehicleError
+from floorfit.vehicles.loading import split_vehicle_file
 
 GOOD = """name = "tug + cart"
 [footprint]

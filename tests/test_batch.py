@@ -8,10 +8,10 @@ import sys
 import ezdxf
 import pytest
 
-from floorfit.fleet.batch import read_manifest, run_batch
 from floorfit.cli import main
-from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M
 from floorfit.errors import InputError
+from floorfit.fleet.batch import read_manifest, run_batch
+from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M
 
 HEIGHT, WALL_T = 4.0, 0.2
 

@@ -2,8 +2,9 @@
 
 import json
 
-from floorfit.cli import main
 from test_articulated_site import TRAIN_TOML, _dxf_ring
+
+from floorfit.cli import main
 
 
 def test_check_with_train_file_reports_off_tracking(tmp_path):

@@ -10,9 +10,9 @@ import shapely
 
 import floorfit as ff
 from floorfit.analysis.check import run_check
-from floorfit.cli import main
 from floorfit.analysis.compare import compare_layouts, compare_results, match_findings
 from floorfit.analysis.findings import Finding, Station
+from floorfit.cli import main
 from floorfit.plan.model import Plan
 from floorfit.plan.site import Site
 

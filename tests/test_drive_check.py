@@ -16,6 +16,8 @@ from shapely.geometry import Polygon, box
 import floorfit as ff
 from floorfit.cspace.collision import PoseChecker, sample_motion
 from floorfit.cspace.slices import build_slices
+from floorfit.errors import InputError
+from floorfit.motion import arc, rotate, rotate_and_drive, sample, straight
 from floorfit.motion.drivable import (
     DriveLimits,
     SliceMotionCheck,
@@ -23,8 +25,6 @@ from floorfit.motion.drivable import (
     drive_tolerance_m,
     segment_dicts,
 )
-from floorfit.errors import InputError
-from floorfit.motion import arc, rotate, rotate_and_drive, sample, straight
 from floorfit.plan.model import Plan
 
 ARC_R = 1.0

@@ -11,9 +11,6 @@ import shapely
 from shapely.geometry import Polygon
 
 import floorfit as ff
-from floorfit.cspace.collision import place_footprint
-from floorfit.cspace.slices import build_slices, choose_headings
-from floorfit.errors import SiteError
 from floorfit.analysis.findings import Station
 from floorfit.analysis.maneuvers import (
     maneuver_findings,
@@ -21,9 +18,12 @@ from floorfit.analysis.maneuvers import (
     swept_area,
     turnaround_circle,
 )
+from floorfit.cspace.collision import place_footprint
+from floorfit.cspace.roadmap import build_roadmap
+from floorfit.cspace.slices import build_slices, choose_headings
+from floorfit.errors import SiteError
 from floorfit.motion import sample, swept_annulus
 from floorfit.plan.model import Plan
-from floorfit.cspace.roadmap import build_roadmap
 from floorfit.testing import assert_path_clear
 
 ARM = 12.0

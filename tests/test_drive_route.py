@@ -17,10 +17,10 @@ from shapely.geometry import Polygon, box
 
 import floorfit as ff
 from floorfit.cli import main
-from floorfit.cspace.slices import build_slices
-from floorfit.motion.drivable import DriveLimits
 from floorfit.cspace.headings import arc_deg
+from floorfit.cspace.slices import build_slices
 from floorfit.motion import swept_annulus
+from floorfit.motion.drivable import DriveLimits
 from floorfit.plan.model import Plan
 from floorfit.testing import assert_path_clear
 

@@ -20,8 +20,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from floorfit.plan.dxf import load_plan
 from floorfit.errors import FloorfitError
+from floorfit.plan.dxf import load_plan
 
 HERE = Path(__file__).parent
 REGRESSIONS = HERE / "fuzz_regressions"

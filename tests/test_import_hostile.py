@@ -6,11 +6,11 @@ from __future__ import annotations
 
 import time
 
+import dxf_fixtures as F
 import pytest
 
-import dxf_fixtures as F
-from floorfit.plan.dxf import ImportLimits, load_plan
 from floorfit.errors import LimitExceeded, PlanImportError
+from floorfit.plan.dxf import ImportLimits, load_plan
 
 
 def _refused(path, error, **kw) -> str:

@@ -9,11 +9,11 @@ radius, end points), not vertex by vertex.
 
 from __future__ import annotations
 
+import dxf_fixtures as F
 import numpy as np
 import pytest
 import shapely
 
-import dxf_fixtures as F
 from floorfit.plan.dxf import load_plan
 
 pyogrio = pytest.importorskip("pyogrio")

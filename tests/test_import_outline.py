@@ -7,13 +7,13 @@ from __future__ import annotations
 import json
 import math
 
+import dxf_fixtures as F
 import pytest
 import shapely
 
-import dxf_fixtures as F
+from floorfit.errors import VehicleError
 from floorfit.plan.dxf import outline_from_dxf
 from floorfit.plan.dxf.outline import OUTLINE_TOLERANCE_M
-from floorfit.errors import VehicleError
 from floorfit.vehicles.factsheet import outline_from_factsheet
 
 

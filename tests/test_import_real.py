@@ -9,7 +9,7 @@ sheet, not a plan) is imported with a "not-a-plan" warning.
 from __future__ import annotations
 
 import time
-from functools import lru_cache
+from functools import cache
 from pathlib import Path
 
 import pytest
@@ -34,7 +34,7 @@ P11 = "egghunters__dxf-viewer-examples__doors_and_windows.dxf"
 INCH = 0.0254
 
 
-@lru_cache(maxsize=None)
+@cache
 def _import(name: str, units: str | None = None):
     start = time.perf_counter()
     result = import_drawing(PLANS / name, units=units)
@@ -78,8 +78,8 @@ def test_1_clean_metre_plan_layers_roles_and_eight_swing_doors():
 
 
 def test_1_flooring_grid_is_not_an_obstacle():
-    from floorfit.plan.dxf import load_plan
     from floorfit.errors import PlanImportError
+    from floorfit.plan.dxf import load_plan
     with pytest.raises(PlanImportError, match="nothing usable"):
         load_plan(PLANS / P1, layers=["Flooring"])
 

@@ -9,11 +9,11 @@ from __future__ import annotations
 
 import math
 
+import dxf_fixtures as F
 import numpy as np
 import pytest
 import shapely
 
-import dxf_fixtures as F
 from floorfit.plan.dxf import load_plan
 from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M
 

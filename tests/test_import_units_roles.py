@@ -4,15 +4,14 @@ from __future__ import annotations
 
 import json
 
+import dxf_fixtures as F
 import pytest
 
-import dxf_fixtures as F
 from floorfit.cli import main
+from floorfit.errors import InputError, SiteError
 from floorfit.plan.dxf import load_plan, read_roles, roles_from_site_table
 from floorfit.plan.dxf.roles import RoleResolver, strip_xref_prefix
 from floorfit.plan.dxf.units import UnitEvidence, decide_units, parse_units, unit_hint_from_text
-from floorfit.errors import InputError, SiteError
-
 
 # --- units ------------------------------------------------------------------------------
 

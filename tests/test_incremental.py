@@ -15,11 +15,11 @@ import shapely
 from shapely.geometry import Polygon
 
 import floorfit as ff
-from floorfit.cspace.slices import build_slices
 from floorfit.cspace.headings import make_heading_cells
 from floorfit.cspace.incremental import plan_changes, update_slices
-from floorfit.plan.model import Plan
 from floorfit.cspace.roadmap import build_roadmap
+from floorfit.cspace.slices import build_slices
+from floorfit.plan.model import Plan
 
 ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:

@@ -7,7 +7,7 @@ import pytest
 import shapely
 from shapely.geometry import Polygon, box
 
-from floorfit.cspace.minkowski import convex_parts, is_convex, minkowski_sum, prepare_obstacles, cobstacle_pieces
+from floorfit.cspace.minkowski import cobstacle_pieces, convex_parts, is_convex, minkowski_sum, prepare_obstacles
 
 
 def _disc(r, n=4096):

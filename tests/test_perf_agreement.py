@@ -23,11 +23,11 @@ from shapely.geometry import Polygon
 import floorfit as ff
 from floorfit.cspace import slices as cspace
 from floorfit.cspace.collision import PoseChecker
-from floorfit.cspace.slices import SliceSet, build_slices, free_components, slice_domain, slice_recipe
 from floorfit.cspace.headings import make_heading_cells
 from floorfit.cspace.minkowski import ConvexGroup, convex_sums, footprint_parts_at, is_convex, prepare_obstacles
-from floorfit.plan.model import Plan
 from floorfit.cspace.roadmap import build_roadmap
+from floorfit.cspace.slices import SliceSet, build_slices, free_components, slice_domain, slice_recipe
+from floorfit.plan.model import Plan
 
 ROOT = Path(__file__).resolve().parents[1]
 if str(ROOT) not in sys.path:

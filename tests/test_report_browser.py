@@ -8,9 +8,9 @@ from __future__ import annotations
 import os
 
 import pytest
+from report_fixtures import demo_result
 
 from floorfit.report import write_report
-from report_fixtures import demo_result
 
 CHROMIUM = "/usr/bin/chromium"
 CHROMEDRIVER = "/usr/bin/chromedriver"

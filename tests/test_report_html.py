@@ -8,14 +8,21 @@ import re
 import numpy as np
 import pytest
 import shapely
+from report_fixtures import demo_result, demo_vehicle
 from shapely.geometry import box
 
 from floorfit.analysis.findings import CheckResult, Station
 from floorfit.plan.model import Plan
-from report_fixtures import demo_result, demo_vehicle
-from floorfit.report.figures import (FigureImage, choose_format, draw_report_figures,
-                                     heading_count_figure, plan_figure, render_figure,
-                                     turnability_figure, vehicle_figure)
+from floorfit.report.figures import (
+    FigureImage,
+    choose_format,
+    draw_report_figures,
+    heading_count_figure,
+    plan_figure,
+    render_figure,
+    turnability_figure,
+    vehicle_figure,
+)
 from floorfit.report.html import render_html
 
 HOSTILE = "<script>alert(1)</script>"

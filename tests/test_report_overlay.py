@@ -13,13 +13,13 @@ import ezdxf
 import numpy as np
 import pytest
 import shapely
+from report_fixtures import demo_vehicle
 from shapely.geometry import LineString, box
 
-from floorfit.errors import InputError
 from floorfit.analysis.findings import CheckResult, Finding, Station
+from floorfit.errors import InputError
 from floorfit.plan.model import Plan
 from floorfit.report import write_report
-from report_fixtures import demo_vehicle
 from floorfit.report.overlay import LAYERS, insunits_for, overlay_dxf
 
 pyogrio_raw = pytest.importorskip("pyogrio.raw")

@@ -8,14 +8,13 @@ import json
 import math
 
 import pytest
+from report_fixtures import demo_result, demo_vehicle
 from shapely.geometry import box
 
 from floorfit.analysis.findings import CheckResult, Finding, Station
 from floorfit.plan.model import Plan
 from floorfit.report import write_report
-from report_fixtures import demo_result, demo_vehicle
-from floorfit.report.tables import (CSV_COLUMNS, REPORT_FORMAT, escape_csv_cell, findings_csv,
-                                    findings_json, report_data)
+from floorfit.report.tables import CSV_COLUMNS, REPORT_FORMAT, escape_csv_cell, findings_csv, findings_json, report_data
 
 HOSTILE_LABEL = "<script>alert(1)</script>"
 HOSTILE_CELL = "=cmd|' /C calc'!A0"

@@ -7,11 +7,11 @@ import json
 import os
 
 import pytest
+from report_fixtures import demo_result
 
 from floorfit.errors import InputError
 from floorfit.report import COMPLETION_MARKER, OUTPUT_FILES, write_report
 from floorfit.report import writer as writer_module
-from report_fixtures import demo_result
 
 ALL = ("html", "json", "csv", "dxf")
 

@@ -6,8 +6,8 @@ import shapely
 import floorfit as ff
 import floorfit.cspace.sizelimits as limits
 from floorfit.analysis.check import run_check
-from floorfit.errors import LimitExceeded
 from floorfit.analysis.findings import Station
+from floorfit.errors import LimitExceeded
 from floorfit.plan.model import Plan
 
 

@@ -10,12 +10,12 @@ from scipy.optimize import minimize_scalar
 from shapely.geometry import Polygon
 
 import floorfit as ff
-from floorfit.cli import main
-from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M
-from floorfit.errors import InputError
 from floorfit.analysis.findings import Station
-from floorfit.plan.model import Doorway, Label, Plan
 from floorfit.analysis.sizing import family_is_nested, size_vehicle, vehicle_family
+from floorfit.cli import main
+from floorfit.errors import InputError
+from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M
+from floorfit.plan.model import Doorway, Label, Plan
 
 
 def two_rooms(door_width: float, wall_t: float = 0.2) -> Plan:

@@ -29,9 +29,10 @@ whole is worse when any station pair that was reachable is not any more
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 from floorfit.analysis.findings import FINDING_KINDS, CheckResult, Finding, Station
 from floorfit.plan.model import Plan

@@ -38,8 +38,15 @@ import numpy as np
 import shapely
 from shapely.geometry import LineString
 
+from floorfit.analysis.findings import Finding, Station
+from floorfit.analysis.naming import place_name
 from floorfit.cspace.collision import place_footprint, sample_motion
+from floorfit.cspace.headings import arc_deg, dominant_directions_deg, wrap_deg
+from floorfit.cspace.minkowski import convex_parts
+from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.slices import SliceSet
+from floorfit.errors import SiteError
+from floorfit.motion import sample
 from floorfit.motion.drivable import (
     FOUND,
     NOT_FOUND,
@@ -51,15 +58,8 @@ from floorfit.motion.drivable import (
     reference_grid,
     segment_dicts,
 )
-from floorfit.errors import SiteError
-from floorfit.analysis.findings import Finding, Station
-from floorfit.cspace.headings import arc_deg, dominant_directions_deg, wrap_deg
-from floorfit.cspace.minkowski import convex_parts
-from floorfit.motion import sample
-from floorfit.analysis.naming import place_name
-from floorfit.plan.model import Plan
-from floorfit.cspace.roadmap import build_roadmap
 from floorfit.motion.route_query import differential_plan, route_in_slices
+from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import Vehicle
 
 __all__ = [

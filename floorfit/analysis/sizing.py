@@ -49,18 +49,19 @@ evaluations of one search share one set of heading cells (one step throughout).
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from itertools import pairwise
-from typing import Any, Callable
+from typing import Any
 
 import networkx as nx
 import shapely
 
+from floorfit.analysis.findings import Station
+from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for
 from floorfit.errors import InputError
-from floorfit.analysis.findings import Station
 from floorfit.plan.model import Plan
-from floorfit.cspace.roadmap import build_roadmap
 from floorfit.plan.site import Site
 from floorfit.vehicles.rigid import PLAUSIBLE_SIZE_M, Vehicle
 

@@ -23,9 +23,9 @@ import numpy as np
 import shapely
 from shapely.geometry import Polygon
 
-from floorfit.cspace.slices import SliceSet
 from floorfit.cspace.minkowski import ObstacleSet, cobstacle_pieces
 from floorfit.cspace.raster import fill_polygons
+from floorfit.cspace.slices import SliceSet
 
 __all__ = ["HeadingRaster", "heading_raster", "turn_region", "heading_ranges"]
 

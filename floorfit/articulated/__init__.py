@@ -40,8 +40,8 @@ from floorfit.articulated.sitecheck import (
 )
 from floorfit.articulated.sizing import CartLengthResult, largest_cart_length
 from floorfit.articulated.sweep import MotionVerdict, TrainChecker, judge_motion, off_tracking_m, swept_geometry
-from floorfit.vehicles.train import Train, is_train_file, load_train, make_train, train_from_table
 from floorfit.articulated.turnaround import TurnCircle, turn_circle, turnaround_region
+from floorfit.vehicles.train import Train, is_train_file, load_train, make_train, train_from_table
 
 __all__ = [
     "DEFAULT_TOLERANCE_M",

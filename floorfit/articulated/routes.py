@@ -12,10 +12,10 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
+from floorfit.articulated.kinematics import jack_knife_radius
 from floorfit.errors import InputError
 from floorfit.motion.dubins import dubins_path
 from floorfit.motion.segments import Segment
-from floorfit.articulated.kinematics import jack_knife_radius
 from floorfit.vehicles.train import Train
 
 __all__ = ["default_turn_radius", "path_through"]

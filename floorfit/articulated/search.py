@@ -40,11 +40,11 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import dijkstra
 
 from floorfit.analysis.clearance_field import clearance_field
+from floorfit.articulated.kinematics import DEFAULT_TOLERANCE_M, TrainMotion, follow, jack_knife_radius
+from floorfit.articulated.sweep import TrainChecker, judge_motion
 from floorfit.errors import InputError
 from floorfit.motion.dubins import dubins_path
 from floorfit.motion.segments import Segment, arc, rotate, straight
-from floorfit.articulated.kinematics import DEFAULT_TOLERANCE_M, TrainMotion, follow, jack_knife_radius
-from floorfit.articulated.sweep import TrainChecker, judge_motion
 from floorfit.vehicles.train import Train
 
 __all__ = [

@@ -20,10 +20,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from floorfit.motion.segments import Segment
-from floorfit.plan.model import Plan
 from floorfit.articulated.kinematics import DEFAULT_TOLERANCE_M, follow
 from floorfit.articulated.sweep import MotionVerdict, TrainChecker, judge_motion
+from floorfit.motion.segments import Segment
+from floorfit.plan.model import Plan
 from floorfit.vehicles.train import MIN_TONGUE_M, Train
 
 __all__ = ["CartLengthResult", "largest_cart_length"]

@@ -35,9 +35,9 @@ import shapely
 import shapely.ops
 from shapely.geometry import LineString, Polygon
 
+from floorfit.articulated.kinematics import TrainMotion
 from floorfit.cspace.collision import PoseChecker, place_footprint
 from floorfit.plan.model import Plan
-from floorfit.articulated.kinematics import TrainMotion
 from floorfit.vehicles.train import Train
 
 __all__ = [

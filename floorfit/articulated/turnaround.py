@@ -31,12 +31,12 @@ import numpy as np
 import shapely
 from shapely.geometry import Polygon, box
 
+from floorfit.analysis.turnability import turn_region
+from floorfit.articulated.kinematics import DEFAULT_TOLERANCE_M, follow, jack_knife_radius, steady_turn
 from floorfit.cspace.collision import place_footprint
 from floorfit.cspace.slices import obstacles_for
 from floorfit.motion.segments import arc
 from floorfit.plan.model import Plan
-from floorfit.analysis.turnability import turn_region
-from floorfit.articulated.kinematics import DEFAULT_TOLERANCE_M, follow, jack_knife_radius, steady_turn
 from floorfit.vehicles.train import Train
 
 __all__ = ["RADIUS_FACTORS", "TurnCircle", "turn_circle", "turnaround_region"]

@@ -30,8 +30,8 @@ def add_arguments(p) -> None:
 def run(args) -> int:
     import sys
 
-    from floorfit.fleet.batch import read_manifest, run_batch
     from floorfit.errors import InputError
+    from floorfit.fleet.batch import read_manifest, run_batch
     from floorfit.fleet.batch_html import write_batch
 
     if args.workers < 1:

@@ -37,8 +37,8 @@ def check_and_report(args):
     """Shared by ``check`` and ``demo``: read inputs, run the check, write the report."""
     from floorfit.analysis.check import run_check
     from floorfit.errors import InputError
-    from floorfit.report import Progress, write_report
     from floorfit.plan.site import Site, apply_height_ranges, parse_station_flag, read_site, stations_from_drawing
+    from floorfit.report import Progress, write_report
     from floorfit.vehicles.loading import split_vehicle_file
 
     site = read_site(args.site) if args.site else Site()

@@ -34,8 +34,8 @@ def add_arguments(p) -> None:
 
 def run(args) -> int:
     from floorfit.analysis.compare import compare_layouts
-    from floorfit.plan.dxf import load_plan
     from floorfit.errors import InputError
+    from floorfit.plan.dxf import load_plan
     from floorfit.report import Progress
     from floorfit.report.compare_html import write_comparison
 

@@ -17,13 +17,13 @@ def add_arguments(p) -> None:
 
 
 def run(args) -> int:
-    from floorfit.demo import DEMO_ROUTES, write_demo_site
-    from floorfit.plan.dxf import load_plan
-    from floorfit.motion.route_query import find_route
-    from floorfit.plan.site import read_site
-    from floorfit.vehicles.rigid import load_vehicle
     from floorfit.commands.check import check_and_report, summary_text
     from floorfit.commands.route import format_route
+    from floorfit.demo import DEMO_ROUTES, write_demo_site
+    from floorfit.motion.route_query import find_route
+    from floorfit.plan.dxf import load_plan
+    from floorfit.plan.site import read_site
+    from floorfit.vehicles.rigid import load_vehicle
 
     out = Path(args.out)
     paths = write_demo_site(out / "plans")

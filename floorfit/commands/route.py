@@ -42,8 +42,8 @@ def add_arguments(p) -> None:
 def _limits(args):
     from dataclasses import replace
 
-    from floorfit.motion.drivable import DriveLimits
     from floorfit.errors import InputError
+    from floorfit.motion.drivable import DriveLimits
 
     limits = DriveLimits()
     if args.max_expansions is not None:

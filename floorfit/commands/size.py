@@ -65,9 +65,9 @@ def add_arguments(p) -> None:
 
 
 def run(args) -> int:
+    from floorfit.analysis.sizing import size_vehicle
     from floorfit.errors import InputError
     from floorfit.report import Progress
-    from floorfit.analysis.sizing import size_vehicle
 
     if args.max_m is not None:
         parse_floats(str(args.max_m), 1, "--max")

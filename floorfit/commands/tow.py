@@ -5,8 +5,14 @@ from __future__ import annotations
 
 import math
 
+from floorfit.commands._common import (
+    add_plan_arguments,
+    load_plan_from_args,
+    parse_floats,
+    parse_pose,
+    write_json_atomic,
+)
 from floorfit.errors import InputError
-from floorfit.commands._common import add_plan_arguments, load_plan_from_args, parse_floats, parse_pose, write_json_atomic
 
 NAME = "tow"
 HELP = ("a tractor towing a cart: drive a route forward (or search one), off-tracking, jack-knife, "

@@ -29,9 +29,20 @@ import numpy as np
 import shapely
 from shapely.geometry import Polygon, box
 
-from floorfit.cspace.slices import SliceSet, build_slices, canonical_order, cluster_reach_m, free_components, obstacle_clusters, \
-    obstacles_met, slice_domain, slice_free, slice_recipe, union_polygons
 from floorfit.cspace.minkowski import ObstacleSet, prepare_obstacles
+from floorfit.cspace.slices import (
+    SliceSet,
+    build_slices,
+    canonical_order,
+    cluster_reach_m,
+    free_components,
+    obstacle_clusters,
+    obstacles_met,
+    slice_domain,
+    slice_free,
+    slice_recipe,
+    union_polygons,
+)
 from floorfit.plan.model import Plan
 
 __all__ = ["update_slices", "plan_changes", "PlanChanges", "obstacles_bounds", "WINDOW_MARGIN_M", "SEAM_OVERLAP_M"]

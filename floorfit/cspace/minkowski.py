@@ -188,7 +188,7 @@ class ConvexGroup:
     angles: np.ndarray
 
     @classmethod
-    def of(cls, rings: np.ndarray) -> "ConvexGroup":
+    def of(cls, rings: np.ndarray) -> ConvexGroup:
         V = _lowest_first(_as_ccw_rings(rings))
         return cls(V, _edge_angles(V))
 

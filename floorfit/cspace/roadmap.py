@@ -16,8 +16,8 @@ import numpy as np
 import shapely
 from shapely.geometry import Point
 
-from floorfit.cspace.slices import SliceSet
 from floorfit.cspace.headings import arc_deg
+from floorfit.cspace.slices import SliceSet
 
 __all__ = ["build_roadmap", "MIN_ZONE_AREA_M2", "reachable_cells", "station_nodes"]
 

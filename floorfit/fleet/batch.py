@@ -40,13 +40,14 @@ import csv
 import io
 import multiprocessing
 import re
+from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
-from floorfit.errors import FloorfitError, InputError
 from floorfit.analysis.findings import FINDING_KINDS
+from floorfit.errors import FloorfitError, InputError
 from floorfit.tomlcheck import check_keys, get_number, get_string, read_toml
 
 __all__ = ["Manifest", "SiteEntry", "VehicleEntry", "CellSpec", "BatchResult", "read_manifest", "run_cell",

@@ -15,8 +15,8 @@ its own. Cells marked blocked are treated as unreachable.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 from scipy.sparse import coo_matrix

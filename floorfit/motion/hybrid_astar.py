@@ -26,8 +26,8 @@ from __future__ import annotations
 import heapq
 import math
 import time
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from typing import Callable, Sequence
 
 import numpy as np
 

@@ -10,7 +10,7 @@ centre of the rear axle.
 from __future__ import annotations
 
 import math
-from typing import Sequence
+from collections.abc import Sequence
 
 import numpy as np
 

@@ -34,7 +34,7 @@ the caller's ``is_free`` (see :mod:`floorfit.motion.sampling` for the margin).
 from __future__ import annotations
 
 import math
-from typing import Callable
+from collections.abc import Callable
 
 import numpy as np
 

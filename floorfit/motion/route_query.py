@@ -32,7 +32,10 @@ from shapely.geometry import Point, Polygon
 
 from floorfit.cspace.cellpath import path_in_polygon, point_inside
 from floorfit.cspace.collision import PoseChecker
+from floorfit.cspace.headings import arc_deg, wrap_deg
+from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.slices import SliceSet, build_slices, choose_headings
+from floorfit.errors import InputError
 from floorfit.motion.drivable import (
     NOT_FOUND,
     DriveLimits,
@@ -42,10 +45,7 @@ from floorfit.motion.drivable import (
     plan_differential,
     segment_dicts,
 )
-from floorfit.errors import InputError
-from floorfit.cspace.headings import arc_deg, wrap_deg
 from floorfit.plan.model import Plan
-from floorfit.cspace.roadmap import build_roadmap
 from floorfit.vehicles.rigid import Vehicle
 
 __all__ = [
@@ -429,8 +429,8 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
     """
     from dataclasses import replace
 
-    from floorfit.motion.drivable import FOUND, DrivePlan, SliceMotionCheck, finish_plan
     from floorfit.motion import merge_segments, sample, straight
+    from floorfit.motion.drivable import FOUND, DrivePlan, SliceMotionCheck, finish_plan
 
     check = check or SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg)
     clearance = ROUTE_CLEARANCE_MARGINS * 0.5 * limits.check_step_m

@@ -21,7 +21,7 @@ Error bounds (radius R in m, step s in m along an arc, heading step d in rad):
 from __future__ import annotations
 
 import math
-from typing import Sequence
+from collections.abc import Sequence
 
 import numpy as np
 

@@ -8,8 +8,8 @@ positive), ``length_m`` the distance travelled by the reference point.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
-from typing import Iterable, Sequence
 
 import numpy as np
 

@@ -142,7 +142,7 @@ class Plan:
 
     # -- construction -------------------------------------------------------------
     @classmethod
-    def from_geometries(cls, walls=(), solids=(), *, origin=(0.0, 0.0), **kw) -> "Plan":
+    def from_geometries(cls, walls=(), solids=(), *, origin=(0.0, 0.0), **kw) -> Plan:
         """A plan from shapely geometries given in the *drawing* frame (metres).
 
         Lines and polygon rings in ``walls`` become linework; polygons in ``solids``
@@ -193,7 +193,7 @@ class Plan:
         ox, oy = self.origin
         return [x0 + ox, y0 + oy, x1 + ox, y1 + oy]
 
-    def with_heights(self, wall_heights, solid_heights) -> "Plan":
+    def with_heights(self, wall_heights, solid_heights) -> Plan:
         """A copy of this plan with other obstacle height ranges ((N, 2) bottom, top, metres)."""
         from dataclasses import replace
         return replace(self, wall_heights=np.asarray(wall_heights, dtype=float),

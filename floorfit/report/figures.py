@@ -13,8 +13,9 @@ from __future__ import annotations
 
 import io
 import math
+from collections.abc import Iterable
 from dataclasses import dataclass
-from typing import Any, Iterable
+from typing import Any
 
 import matplotlib
 

@@ -11,7 +11,8 @@ from __future__ import annotations
 import base64
 import html
 import os
-from typing import Any, Iterable, Sequence
+from collections.abc import Iterable, Sequence
+from typing import Any
 
 from floorfit import __version__
 from floorfit.analysis.findings import FINDING_KINDS

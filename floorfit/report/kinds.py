@@ -10,8 +10,9 @@ every kind also has its own marker shape, so colour is never the only cue.
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
-from typing import Any, Iterable
+from typing import Any
 
 from floorfit.analysis.findings import FINDING_KINDS
 

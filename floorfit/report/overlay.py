@@ -19,11 +19,12 @@ import ezdxf
 import numpy as np
 import shapely
 from ezdxf.enums import TextEntityAlignment
-from ezdxf.units import METER_FACTOR, decode as unit_symbol
+from ezdxf.units import METER_FACTOR
+from ezdxf.units import decode as unit_symbol
 
-from floorfit.report.geometry import parts
 from floorfit import __version__
 from floorfit.errors import InputError
+from floorfit.report.geometry import parts
 from floorfit.report.kinds import KIND_STYLES, kind_style, numbered_findings, plain_text
 
 __all__ = ["LAYERS", "FINDING_LAYERS", "finding_layer", "geometry_layer", "insunits_for", "overlay_dxf"]

@@ -12,7 +12,8 @@ import csv
 import io
 import json
 import math
-from typing import Any, Sequence
+from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 import shapely

@@ -25,8 +25,9 @@ from __future__ import annotations
 import json
 import os
 import secrets
+from collections.abc import Iterable
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Any
 
 from floorfit.errors import InputError
 from floorfit.report.progress import Progress

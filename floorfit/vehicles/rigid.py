@@ -99,17 +99,17 @@ class Vehicle:
         _, y0, _, y1 = self.outline.bounds
         return y1 - y0
 
-    def scaled(self, factor: float) -> "Vehicle":
+    def scaled(self, factor: float) -> Vehicle:
         """The same vehicle with the outline scaled about the reference point (margin unchanged)."""
         return replace(self, outline=shapely.affinity.scale(self.outline, factor, factor, origin=(0, 0)))
 
-    def with_width(self, width_m: float) -> "Vehicle":
+    def with_width(self, width_m: float) -> Vehicle:
         """The outline stretched along y about the axis of its bounds' centre to a new width."""
         _, y0, _, y1 = self.outline.bounds
         cy = 0.5 * (y0 + y1)
         return replace(self, outline=shapely.affinity.scale(self.outline, 1.0, width_m / (y1 - y0), origin=(0, cy)))
 
-    def with_length(self, length_m: float) -> "Vehicle":
+    def with_length(self, length_m: float) -> Vehicle:
         """The outline stretched along x about the reference point to a new length."""
         return replace(self, outline=shapely.affinity.scale(self.outline, length_m / self.length_m, 1.0,
                                                            origin=(0, 0)))

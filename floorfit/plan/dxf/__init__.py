@@ -13,12 +13,12 @@ See ``docs/import.md``.
 
 from __future__ import annotations
 
-from floorfit.plan.model import Plan
 from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M, import_drawing
 from floorfit.plan.dxf.limits import ImportLimits
 from floorfit.plan.dxf.outline import outline_from_dxf
 from floorfit.plan.dxf.report import inspect_plan
 from floorfit.plan.dxf.roles import read_roles, roles_from_site_table
+from floorfit.plan.model import Plan
 
 __all__ = ["load_plan", "inspect_plan", "outline_from_dxf", "ImportLimits", "read_roles",
            "roles_from_site_table", "DEFAULT_CURVE_TOLERANCE_M"]

@@ -20,7 +20,6 @@ import shapely
 from shapely.errors import GEOSException
 
 from floorfit.errors import FloorfitError, InputError, PlanImportError
-from floorfit.plan.model import Doorway, ImportIssue, LayerInfo, Plan
 from floorfit.plan.dxf.doors import door_size_evidence, find_doors
 from floorfit.plan.dxf.hatches import hatch_policy
 from floorfit.plan.dxf.labels import LabelIndex, to_labels
@@ -29,6 +28,7 @@ from floorfit.plan.dxf.reading import audit_drawing, open_drawing
 from floorfit.plan.dxf.roles import RoleResolver
 from floorfit.plan.dxf.units import UnitDecision, UnitEvidence, decide_units, parse_units, unit_hint_from_text
 from floorfit.plan.dxf.walker import Prim, WalkResult, walk_modelspace
+from floorfit.plan.model import Doorway, ImportIssue, LayerInfo, Plan
 
 __all__ = ["ImportResult", "import_drawing", "DEFAULT_CURVE_TOLERANCE_M"]
 
@@ -484,6 +484,7 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
 
 def _selected(layer: str, patterns: list[str]) -> bool:
     import fnmatch
+
     from floorfit.plan.dxf.roles import strip_xref_prefix
     full, core = layer.lower(), strip_xref_prefix(layer).lower()
     return any(fnmatch.fnmatchcase(full, p.lower()) or fnmatch.fnmatchcase(core, p.lower()) for p in patterns)

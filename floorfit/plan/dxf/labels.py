@@ -10,8 +10,8 @@ from __future__ import annotations
 import numpy as np
 from scipy.spatial import cKDTree
 
-from floorfit.plan.model import Label
 from floorfit.plan.dxf.walker import TextItem
+from floorfit.plan.model import Label
 
 __all__ = ["to_labels", "LabelIndex", "DOOR_LABEL_RADIUS_M"]
 

@@ -27,9 +27,10 @@ from __future__ import annotations
 import difflib
 import fnmatch
 import re
+from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Any
 
 from floorfit.errors import SiteError
 from floorfit.tomlcheck import read_toml

@@ -19,8 +19,8 @@ import fnmatch
 import math
 import unicodedata
 from collections import Counter, defaultdict
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
 
 import numpy as np
 from ezdxf import bbox as ezdxf_bbox
