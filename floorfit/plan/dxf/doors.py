@@ -31,7 +31,7 @@ import numpy as np
 import shapely
 from scipy.spatial import cKDTree
 
-from floorfit.plan.dxf.walker import ArcInfo, DoorGroup, Prim
+from floorfit.plan.dxf.primitives import ArcInfo, DoorGroup, Prim
 
 __all__ = ["DoorFound", "door_size_evidence", "find_doors", "SWING_RADIUS_M"]
 

@@ -24,10 +24,11 @@ from floorfit.plan.dxf.doors import door_size_evidence, find_doors
 from floorfit.plan.dxf.hatches import hatch_policy
 from floorfit.plan.dxf.labels import LabelIndex, to_labels
 from floorfit.plan.dxf.limits import BlockStats, ImportLimits, check_block_graph
+from floorfit.plan.dxf.primitives import Prim, WalkResult
 from floorfit.plan.dxf.reading import audit_drawing, open_drawing
 from floorfit.plan.dxf.roles import RoleResolver
 from floorfit.plan.dxf.units import UnitDecision, UnitEvidence, decide_units, parse_units, unit_hint_from_text
-from floorfit.plan.dxf.walker import Prim, WalkResult, walk_modelspace
+from floorfit.plan.dxf.walker import walk_modelspace
 from floorfit.plan.model import Doorway, ImportIssue, LayerInfo, Plan
 
 __all__ = ["ImportResult", "import_drawing", "DEFAULT_CURVE_TOLERANCE_M"]

@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.spatial import cKDTree
 
-from floorfit.plan.dxf.walker import TextItem
+from floorfit.plan.dxf.primitives import TextItem
 from floorfit.plan.model import Label
 
 __all__ = ["to_labels", "LabelIndex", "DOOR_LABEL_RADIUS_M"]

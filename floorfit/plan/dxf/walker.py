@@ -17,22 +17,20 @@ from __future__ import annotations
 
 import fnmatch
 import math
-import unicodedata
-from collections import Counter, defaultdict
-from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 from ezdxf import bbox as ezdxf_bbox
-from ezdxf.lldxf.encoding import decode_dxf_unicode, has_dxf_unicode
-from ezdxf.math import OCS, Vec3
+from ezdxf.math import Vec3
 
 from floorfit.errors import FloorfitError, LimitExceeded, PlanImportError
-from floorfit.plan.dxf.curves import TooManyVertices, arc_points, bulge_polyline, ellipse_points, spline_points
+from floorfit.plan.dxf.curves import TooManyVertices
+from floorfit.plan.dxf.entities import EntityGeometry, ocs_matrix
 from floorfit.plan.dxf.limits import ImportLimits, check_points, check_vertex_count
+from floorfit.plan.dxf.primitives import DoorGroup, Prim, TextItem, WalkResult, clean_text, dxf_name
 from floorfit.plan.dxf.roles import RoleResolver, strip_xref_prefix
 
-__all__ = ["ArcInfo", "Prim", "TextItem", "DoorGroup", "WalkResult", "walk_modelspace", "clean_text", "dxf_name"]
+__all__ = ["walk_modelspace", "SKIPPED_TYPES"]
 
 #: Entity types that are never obstacles: counted and reported, not imported.
 SKIPPED_TYPES = {
@@ -51,113 +49,6 @@ SKIPPED_TYPES = {
 _TEXT_TYPES = ("TEXT", "MTEXT", "ATTRIB")
 
 
-@dataclass
-class ArcInfo:
-    """A circular arc after transformation (similarity transforms only), drawing units."""
-
-    centre: np.ndarray
-    radius: float
-    p_start: np.ndarray
-    p_end: np.ndarray
-    span: float        # radians
-
-
-@dataclass
-class Prim:
-    """One importable entity in world coordinates, drawing units, not yet flattened.
-
-    ``kind``: ``"line"`` (linework, open or closed) or ``"fill"`` (filled area: SOLID,
-    3DFACE, HATCH). ``role``: the final role after layer / block / furniture policy.
-    """
-
-    kind: str
-    layer: str
-    role: str
-    dxftype: str
-    where: str
-    handle: str
-    top: str
-    closed: bool = False
-    width: float = 0.0
-    group: int = -1          # door-block instance
-    inst: int = -1           # model-space INSERT instance (for polygonising solids)
-    arc: ArcInfo | None = None
-    points: np.ndarray | None = None              # straight geometry (N, 2), world
-    curve: Callable[[float], list[np.ndarray]] | None = None   # tol (drawing units) -> paths
-    coarse: np.ndarray | None = None              # rough points for extents / windows
-    pattern: str = ""                             # hatch pattern name ("SOLID" for solid fill)
-    z0: float = 0.0                               # height range, drawing units: bottom ...
-    z1: float = math.inf                          # ... and top (inf: a flat 2-D entity blocks all heights)
-
-    def paths(self, tol: float) -> list[np.ndarray]:
-        """World paths (drawing units) flattened with chord error ≤ ``tol``."""
-        if self.curve is not None:
-            return self.curve(tol)
-        return [self.points]
-
-    def bbox(self) -> tuple[float, float, float, float]:
-        pts = self.coarse if self.coarse is not None else self.points
-        return (float(pts[:, 0].min()), float(pts[:, 1].min()), float(pts[:, 0].max()), float(pts[:, 1].max()))
-
-
-@dataclass
-class TextItem:
-    """A text found in the drawing: raw text (control characters removed), world position."""
-
-    text: str
-    x: float
-    y: float
-    layer: str
-    handle: str
-    where: str
-
-
-@dataclass
-class DoorGroup:
-    """One expanded door-block reference."""
-
-    gid: int
-    block: str
-    layer: str
-    handle: str
-    where: str
-
-
-@dataclass
-class WalkResult:
-    prims: list[Prim] = field(default_factory=list)
-    texts: list[TextItem] = field(default_factory=list)
-    door_groups: dict[int, DoorGroup] = field(default_factory=dict)
-    layer_counts: Counter = field(default_factory=Counter)
-    layer_names: set = field(default_factory=set)
-    skipped: dict[str, list[str]] = field(default_factory=lambda: defaultdict(list))
-    issues: list = field(default_factory=list)     # (kind, message, handle, layer)
-    filtered: int = 0
-    entity_count: int = 0
-    extra_points: list = field(default_factory=list)   # annotation points (extent only), world
-
-
-def clean_text(text: str) -> str:
-    """Text as written in the drawing: DXF ``\\U+XXXX`` escapes decoded, control and format
-    characters (including bidirectional overrides) removed, whitespace runs made one space."""
-    if has_dxf_unicode(text):
-        text = decode_dxf_unicode(text)
-    out = []
-    for ch in text:
-        cat = unicodedata.category(ch)
-        if cat == "Cc" or (cat == "Cf" and ch != "\u200d"):
-            out.append(" " if ch in "\n\r\t\v\f" else "")
-        else:
-            out.append(ch)
-    return " ".join("".join(out).split())
-
-
-def dxf_name(name: str) -> str:
-    """A layer or block name with DXF ``\\U+XXXX`` escapes decoded (pre-2007 files write
-    non-ASCII names that way)."""
-    return decode_dxf_unicode(name) if has_dxf_unicode(name) else name
-
-
 def _box_corners(entity) -> list[tuple[float, float, float]]:
     """Corners of the approximate WCS bounding box of an annotation entity (text, dimension)."""
     try:
@@ -168,14 +59,6 @@ def _box_corners(entity) -> list[tuple[float, float, float]]:
         return []
     (x0, y0, _), (x1, y1, _) = box.extmin, box.extmax
     return [(x0, y0, 0.0), (x1, y0, 0.0), (x1, y1, 0.0), (x0, y1, 0.0)]
-
-
-def _ocs_matrix(extrusion) -> np.ndarray:
-    """3x3 rows ux, uy, uz of the entity's OCS (identity for extrusion +Z)."""
-    ocs = OCS(extrusion)
-    if not ocs.transform:
-        return np.eye(3)
-    return np.array([tuple(ocs.ux), tuple(ocs.uy), tuple(ocs.uz)], dtype=float)
 
 
 @dataclass
@@ -193,7 +76,7 @@ class _Ctx:
     stretch: float | None = None  # cached largest singular value of the xy part of m
 
 
-class _Walker:
+class _Walker(EntityGeometry):
     def __init__(self, doc, path: str, resolver: RoleResolver, limits: ImportLimits,
                  layer_patterns: list[str] | None):
         self.doc = doc
@@ -475,7 +358,7 @@ class _Walker:
         offsets = [np.zeros(3)]
         if rows * cols > 1:
             rot = math.radians(e.dxf.get("rotation", 0.0))
-            ocs = _ocs_matrix(e.dxf.get("extrusion", (0, 0, 1)))
+            ocs = ocs_matrix(e.dxf.get("extrusion", (0, 0, 1)))
             rs, cs = e.dxf.get("row_spacing", 0.0), e.dxf.get("column_spacing", 0.0)
             offsets = []
             for r in range(rows):
@@ -516,7 +399,7 @@ class _Walker:
             align, p1, p2 = e.get_placement()
             p = p1 if p2 is None else (Vec3(p1) + Vec3(p2)) * 0.5
             point = np.array([tuple(p)], dtype=float)
-            ocs = _ocs_matrix(e.dxf.get("extrusion", (0, 0, 1)))
+            ocs = ocs_matrix(e.dxf.get("extrusion", (0, 0, 1)))
         text = clean_text(raw)
         if not text:
             return
@@ -528,222 +411,6 @@ class _Walker:
             if np.all(np.isfinite(box)) and float(np.max(np.abs(box))) <= self.limits.max_abs_coordinate:
                 self.out.extra_points.append(box)
         self.out.texts.append(TextItem(text, float(xy[0, 0]), float(xy[0, 1]), layer, handle, where))
-
-    # -- straight entities -------------------------------------------------------------
-    def do_line(self, e, ctx, layer, role, handle, where):
-        pts = np.array([tuple(e.dxf.start), tuple(e.dxf.end)], dtype=float)
-        world = self.to_world(pts, ctx)
-        self.check(world, where)
-        self.add(self.new_prim("line", layer, self.effective_role(role, ctx), "LINE", where, handle, ctx, points=world))
-
-    def _quad(self, pts3: np.ndarray, ctx, layer, role, handle, where, dxftype, ocs=None):
-        world = self.to_world(pts3, ctx, ocs)
-        self.check(world, where)
-        # drop the repeated 4th vertex of triangles
-        uniq = [world[0]]
-        for p in world[1:]:
-            if tuple(p) != tuple(uniq[-1]):
-                uniq.append(p)
-        if len(uniq) > 1 and tuple(uniq[0]) == tuple(uniq[-1]):
-            uniq.pop()
-        world = np.array(uniq)
-        kind = "fill" if len(world) >= 3 else "line"
-        self.add(self.new_prim(kind, layer, self.effective_role(role, ctx), dxftype, where, handle, ctx,
-                               points=world, closed=kind == "fill"))
-
-    def do_solid(self, e, ctx, layer, role, handle, where):
-        v = [tuple(e.dxf.get(f"vtx{i}", e.dxf.get("vtx2", (0, 0, 0)) if i == 3 else (0, 0, 0))) for i in range(4)]
-        pts = np.array([v[0], v[1], v[3], v[2]], dtype=float)   # SOLID/TRACE vertex order 0-1-3-2
-        self._quad(pts, ctx, layer, role, handle, where, e.dxftype(), _ocs_matrix(e.dxf.get("extrusion", (0, 0, 1))))
-
-    do_trace = do_solid
-
-    def do_three_dface(self, e, ctx, layer, role, handle, where):
-        v = [tuple(e.dxf.get(f"vtx{i}", (0, 0, 0))) for i in range(4)]
-        self._quad(np.array(v, dtype=float), ctx, layer, role, handle, where, "3DFACE")
-
-    # -- polylines -------------------------------------------------------------------------
-    def _polyline(self, pts_ocs: np.ndarray, bulges: np.ndarray, widths: float, closed: bool,
-                  ocs: np.ndarray, ctx, layer, role, handle, where, dxftype):
-        if len(pts_ocs) == 0:
-            return
-        coarse = self.to_world(pts_ocs, ctx, ocs)
-        self.check(coarse, where)
-        if len(pts_ocs) > 1 and closed and tuple(pts_ocs[0]) == tuple(pts_ocs[-1]):
-            pts_ocs, bulges = pts_ocs[:-1], bulges[:-1]
-        stretch = self.stretch(ctx, ocs)
-        width_world = widths * stretch
-        prim_role = self.effective_role(role, ctx)
-        if not np.any(bulges):
-            pts = coarse[: len(pts_ocs)]
-            if closed and len(pts) > 2:
-                pts = np.vstack([pts, pts[:1]])
-            self.add(self.new_prim("line", layer, prim_role, dxftype, where, handle, ctx, points=pts,
-                                   closed=closed and len(pts) > 3, width=width_world))
-            return
-        z = pts_ocs[0, 2] if pts_ocs.shape[1] > 2 else 0.0
-        xy = pts_ocs[:, :2].copy()
-        maxv = self.limits.max_vertices_per_entity
-
-        def flatten(tol, xy=xy, bulges=bulges, closed=closed, z=z, ocs=ocs, ctx=ctx, stretch=stretch):
-            local = bulge_polyline(xy, bulges, closed, tol / max(stretch, 1e-300), maxv)
-            local3 = np.column_stack([local, np.full(len(local), z)])
-            return [self.to_world(local3, ctx, ocs)]
-
-        # bulge arcs can reach beyond the vertices: coarse points include arc mid points
-        mids = bulge_polyline(xy, bulges, closed, float("inf"))
-        coarse = self.to_world(np.column_stack([mids, np.full(len(mids), z)]), ctx, ocs)
-        self.check(coarse, where)
-        self.add(self.new_prim("line", layer, prim_role, dxftype, where, handle, ctx,
-                               curve=self.flatten_guard(flatten, where), coarse=coarse,
-                               closed=closed, width=width_world))
-
-    def do_lwpolyline(self, e, ctx, layer, role, handle, where):
-        self.vertices(len(e), where)
-        data = np.array(list(e.get_points("xyseb")), dtype=float).reshape(-1, 5)
-        elev = float(e.dxf.get("elevation", 0.0))
-        pts = np.column_stack([data[:, 0], data[:, 1], np.full(len(data), elev)])
-        const = float(e.dxf.get("const_width", 0.0) or 0.0)
-        width = const if const > 0 else (float(np.max(data[:, 2:4])) if len(data) else 0.0)
-        self._polyline(pts, data[:, 4], max(width, 0.0), bool(e.closed),
-                       _ocs_matrix(e.dxf.get("extrusion", (0, 0, 1))), ctx, layer, role, handle, where, "LWPOLYLINE")
-
-    def do_polyline(self, e, ctx, layer, role, handle, where):
-        self.vertices(len(e.vertices), where)
-        if e.is_polygon_mesh or e.is_poly_face_mesh:
-            self.out.skipped["POLYLINE (3-D mesh)"].append(handle)
-            return
-        verts = [v for v in e.vertices if not (v.dxf.get("flags", 0) & 16)]   # skip spline frame points
-        if not verts:
-            return
-        pts = np.array([tuple(v.dxf.location) for v in verts], dtype=float)
-        if e.is_2d_polyline:
-            bulges = np.array([v.dxf.get("bulge", 0.0) for v in verts], dtype=float)
-            widths = [e.dxf.get("default_start_width", 0.0), e.dxf.get("default_end_width", 0.0)]
-            widths += [v.dxf.get("start_width", 0.0) for v in verts] + [v.dxf.get("end_width", 0.0) for v in verts]
-            elev = float(Vec3(e.dxf.get("elevation", (0, 0, 0))).z)
-            pts[:, 2] = elev
-            ocs = _ocs_matrix(e.dxf.get("extrusion", (0, 0, 1)))
-        else:
-            bulges = np.zeros(len(pts))
-            widths = [0.0]
-            ocs = None
-        self._polyline(pts, bulges, max(0.0, float(max(widths))), bool(e.is_closed), ocs if ocs is not None else np.eye(3),
-                       ctx, layer, role, handle, where, "POLYLINE")
-
-    # -- curves ------------------------------------------------------------------------------
-    def _arc(self, e, ctx, layer, role, handle, where, full: bool):
-        c = np.array(tuple(e.dxf.center), dtype=float)
-        r = float(e.dxf.radius)
-        ocs = _ocs_matrix(e.dxf.get("extrusion", (0, 0, 1)))
-        if not math.isfinite(r):
-            raise PlanImportError("non-finite radius", self.path, where)
-        corners = np.array([[c[0] - r, c[1] - r, c[2]], [c[0] + r, c[1] + r, c[2]],
-                            [c[0] - r, c[1] + r, c[2]], [c[0] + r, c[1] - r, c[2]]])
-        self.check(self.to_world(corners, ctx, ocs), where)
-        if full:
-            a0, span = 0.0, 2 * math.pi
-        else:
-            a0 = math.radians(e.dxf.start_angle)
-            span = math.radians((e.dxf.end_angle - e.dxf.start_angle) % 360.0) or 2 * math.pi
-        stretch = self.stretch(ctx, ocs)
-        maxv = self.limits.max_vertices_per_entity
-
-        def flatten(tol, c=c, r=r, a0=a0, span=span, ocs=ocs, ctx=ctx, stretch=stretch):
-            local = arc_points(c[0], c[1], r, a0, a0 + span, tol / max(stretch, 1e-300), maxv)
-            local3 = np.column_stack([local, np.full(len(local), c[2])])
-            pts = self.to_world(local3, ctx, ocs)
-            if full:
-                pts[-1] = pts[0]
-            return [pts]
-
-        coarse_local = arc_points(c[0], c[1], r, a0, a0 + span, r * 0.02)
-        coarse = self.to_world(np.column_stack([coarse_local, np.full(len(coarse_local), c[2])]), ctx, ocs)
-        info = None
-        lin = (ocs @ ctx.m[:3, :3])[:2, :2]
-        gram = lin @ lin.T
-        s2 = gram[0, 0]
-        if s2 > 0 and abs(gram[1, 1] - s2) <= 1e-9 * s2 and abs(gram[0, 1]) <= 1e-9 * s2:
-            ends = np.array([[c[0] + r * math.cos(a0), c[1] + r * math.sin(a0), c[2]],
-                             [c[0] + r * math.cos(a0 + span), c[1] + r * math.sin(a0 + span), c[2]],
-                             [c[0], c[1], c[2]]])
-            w = self.to_world(ends, ctx, ocs)
-            info = ArcInfo(centre=w[2], radius=r * math.sqrt(s2), p_start=w[0], p_end=w[1], span=span)
-        self.add(self.new_prim("line", layer, self.effective_role(role, ctx), e.dxftype(), where, handle, ctx,
-                               curve=self.flatten_guard(flatten, where), coarse=coarse, closed=full, arc=info))
-
-    def do_arc(self, e, ctx, layer, role, handle, where):
-        self._arc(e, ctx, layer, role, handle, where, full=False)
-
-    def do_circle(self, e, ctx, layer, role, handle, where):
-        self._arc(e, ctx, layer, role, handle, where, full=True)
-
-    def do_ellipse(self, e, ctx, layer, role, handle, where):
-        dxf = e.dxf
-        center, major, ratio = tuple(dxf.center), tuple(dxf.major_axis), float(dxf.ratio)
-        sp, ep = float(dxf.get("start_param", 0.0)), float(dxf.get("end_param", 2 * math.pi))
-        extrusion = tuple(dxf.get("extrusion", (0, 0, 1)))
-        full = math.isclose((ep - sp) % (2 * math.pi), 0.0, abs_tol=1e-12)
-        if full:
-            ep = sp + 2 * math.pi
-        stretch = self.stretch(ctx)
-        maxv = self.limits.max_vertices_per_entity
-        a = math.hypot(*major)
-        if not (math.isfinite(a) and math.isfinite(ratio)):
-            raise PlanImportError("non-finite ellipse axis", self.path, where)
-        self.check(self.to_world(np.array([center]), ctx) + np.array([[a, a]]), where)
-
-        def flatten(tol):
-            local = ellipse_points(center, major, ratio, sp, ep, tol / max(stretch, 1e-300), extrusion, maxv)
-            pts = self.to_world(local, ctx)
-            if full:
-                pts[-1] = pts[0]
-            return [pts]
-
-        coarse = self.to_world(ellipse_points(center, major, ratio, sp, ep, max(a, 1e-9) * 0.05, extrusion), ctx)
-        self.add(self.new_prim("line", layer, self.effective_role(role, ctx), "ELLIPSE", where, handle, ctx,
-                               curve=self.flatten_guard(flatten, where), coarse=coarse, closed=full))
-
-    def do_spline(self, e, ctx, layer, role, handle, where):
-        self.vertices(len(e.control_points) + len(e.fit_points), where, "control and fit points")
-        spline = e.construction_tool()
-        ctrl = np.array([tuple(p) for p in spline.control_points], dtype=float)
-        self.check(self.to_world(ctrl, ctx), where)
-        stretch = self.stretch(ctx)
-        maxv = self.limits.max_vertices_per_entity
-
-        def flatten(tol):
-            return [self.to_world(spline_points(spline, tol / max(stretch, 1e-300), maxv), ctx)]
-
-        # control polygon hull contains a non-rational spline: a safe coarse extent
-        self.add(self.new_prim("line", layer, self.effective_role(role, ctx), "SPLINE", where, handle, ctx,
-                               curve=self.flatten_guard(flatten, where), coarse=self.to_world(ctrl, ctx),
-                               closed=bool(e.closed)))
-
-    # -- hatches -----------------------------------------------------------------------------
-    def do_hatch(self, e, ctx, layer, role, handle, where):
-        from floorfit.plan.dxf.hatches import hatch_rings_flattener, hatch_vertex_count
-        self.vertices(hatch_vertex_count(e), where, "boundary vertices")
-        ocs = _ocs_matrix(e.dxf.get("extrusion", (0, 0, 1)))
-        elevation = float(Vec3(e.dxf.get("elevation", (0, 0, 0))).z)
-        stretch = self.stretch(ctx, ocs)
-        make_local, coarse_local = hatch_rings_flattener(e, self.limits.max_vertices_per_entity)
-        if coarse_local is None or len(coarse_local) == 0:
-            return
-        lift = lambda p: np.column_stack([p, np.full(len(p), elevation)])  # noqa: E731
-        coarse = self.to_world(lift(coarse_local), ctx, ocs)
-        self.check(coarse, where)
-
-        def flatten(tol):
-            return [self.to_world(lift(r), ctx, ocs) for r in make_local(tol / max(stretch, 1e-300))]
-
-        pattern = "SOLID" if e.dxf.get("solid_fill", 0) else str(e.dxf.get("pattern_name", "") or "")
-        self.add(self.new_prim("fill", layer, self.effective_role(role, ctx), e.dxftype(), where, handle, ctx,
-                               curve=self.flatten_guard(flatten, where), coarse=coarse, closed=True,
-                               pattern=pattern))
-
-    do_mpolygon = do_hatch
-
 
 def walk_modelspace(doc, path: str, resolver: RoleResolver, limits: ImportLimits,
                     layer_patterns: list[str] | None = None) -> WalkResult:
