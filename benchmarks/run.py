@@ -273,7 +273,8 @@ def _target(what: str, value: float, unit: str, target: float, stretch: float | 
     return f"{word:22s} {what}: {value:.3g} {unit} (target {sign} {target:g} {unit}; {rel:.2f}× of target)"
 
 
-def main(argv: list[str] | None = None) -> int:
+# the benchmark script end to end (arguments, measurement loop, scaling fit, report text), read top to bottom
+def main(argv: list[str] | None = None) -> int:  # noqa: C901
     ap = argparse.ArgumentParser(prog="python -m benchmarks.run", description=__doc__.split("\n\n")[0])
     ap.add_argument("--sizes", default="small,medium,large", help="comma-separated: small, medium, large")
     ap.add_argument("--footprints", default=",".join(FOOTPRINTS), help="comma-separated: " + ", ".join(FOOTPRINTS))

@@ -124,7 +124,8 @@ def _machine(cx: float, cy: float, size: float, rng) -> list:
     return [(cx + c * (x - s / 2) - si * (y - s / 2), cy + si * (x - s / 2) + c * (y - s / 2)) for x, y in pts]
 
 
-def warehouse(width: float, height: float, seed: int = 1) -> Warehouse:
+# lays the synthetic warehouse out zone by zone; each zone is placed from coordinates computed above it
+def warehouse(width: float, height: float, seed: int = 1) -> Warehouse:  # noqa: C901
     """Lay out a warehouse of ``width`` × ``height`` metres (see the module docstring)."""
     rng = np.random.default_rng(seed)
     W, H, t = float(width), float(height), WALL_T

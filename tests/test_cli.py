@@ -73,13 +73,16 @@ def test_missing_plan_file(demo, tmp_path, capsys):
     ('name = "x"\n[footprint]\noutlne = [[0,0],[1,0],[1,1]]\n',
      "footprint.outlne: unknown key 'outlne' (did you mean 'outline'?)"),
     ('[footprint]\noutline = [[0,0],[1,1],[1,0],[0,1]]\n',
-     "footprint.outline: outline is not a simple polygon (Self-intersection[0.5 0.5]); list the corners in order around the vehicle"),
+     "footprint.outline: outline is not a simple polygon (Self-intersection[0.5 0.5]); "
+     "list the corners in order around the vehicle"),
     ('[footprint]\noutline = [[0,0],[1,0],[2,0]]\n',
      "footprint.outline: outline has zero area (points are collinear or repeated)"),
     ('[footprint]\nwidth = 620\nlength = 900\n',
-     "footprint: outline is 900 m across, which is not a plausible vehicle; vehicle files are in metres (was it given in millimetres?)"),
+     "footprint: outline is 900 m across, which is not a plausible vehicle; "
+     "vehicle files are in metres (was it given in millimetres?)"),
     ('[footprint]\noutline = [[10,10],[11,10],[11,11],[10,11]]\n',
-     "footprint.outline: the reference point (0, 0) lies 14.1 m outside an outline only 1 m across; outline coordinates are relative to the reference point"),
+     "footprint.outline: the reference point (0, 0) lies 14.1 m outside an outline only 1 m across; "
+     "outline coordinates are relative to the reference point"),
     ('[footprint]\nwidth = "wide"\nlength = 1\n', "footprint.width: expected a number, got str 'wide'"),
     ('[footprint]\nwidth = 0.6\nlength = 0.9\n[motion]\nmode = "diferential"\n',
      "motion.mode: 'diferential' is not one of omni, differential, car, fixed (did you mean 'differential'?)"),

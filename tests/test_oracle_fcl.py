@@ -52,7 +52,8 @@ def _collides(obstacles, foot_parts, pose) -> bool:
 
 def _random_site(seed):
     rng = np.random.default_rng(seed)
-    solids = [shapely.box(0, 0, 10, 0.2), shapely.box(0, 7.8, 10, 8), shapely.box(0, 0, 0.2, 8), shapely.box(9.8, 0, 10, 8)]
+    solids = [shapely.box(0, 0, 10, 0.2), shapely.box(0, 7.8, 10, 8),
+              shapely.box(0, 0, 0.2, 8), shapely.box(9.8, 0, 10, 8)]
     for _ in range(9):
         cx, cy = rng.uniform(1.5, 8.5), rng.uniform(1.5, 6.5)
         w, h = rng.uniform(0.2, 1.5), rng.uniform(0.2, 1.5)
@@ -70,7 +71,8 @@ def test_sound_slices_never_call_a_colliding_pose_free(seed, shape):
         veh = ff.rectangle_vehicle(0.9, 0.6, reference_to_front=0.65)
         parts = [veh.footprint]
     else:  # robot towing a cart: non-convex outline, reference at the drive axle
-        outline = [(0.4, -0.3), (0.4, 0.3), (-0.2, 0.3), (-0.2, 0.15), (-1.2, 0.15), (-1.2, -0.15), (-0.2, -0.15), (-0.2, -0.3)]
+        outline = [(0.4, -0.3), (0.4, 0.3), (-0.2, 0.3), (-0.2, 0.15),
+                   (-1.2, 0.15), (-1.2, -0.15), (-0.2, -0.15), (-0.2, -0.3)]
         veh = ff.vehicle_from_outline(outline, name="tug+cart")
         parts = [shapely.box(-0.2, -0.3, 0.4, 0.3), shapely.box(-1.2, -0.15, -0.2, 0.15)]
         assert shapely.union_all(parts).symmetric_difference(veh.footprint).area < 1e-12

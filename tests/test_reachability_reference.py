@@ -81,12 +81,12 @@ def corridor_plan(width: float, length: float = 6.0) -> Plan:
     return Plan.from_geometries(walls=[shapely.box(0, 0, length, width)])
 
 
-@pytest.mark.parametrize("l, w", [(0.9, 0.6), (1.2, 0.5)])
-def test_reversing_heading_in_straight_corridor_needs_diagonal(l, w):
+@pytest.mark.parametrize("length, w", [(0.9, 0.6), (1.2, 0.5)])
+def test_reversing_heading_in_straight_corridor_needs_diagonal(length, w):
     # Reversing heading in a straight corridor needs W ≥ √(l² + w²) (classic; FIELD-NOTES:
     # 0.9 × 0.6 → 1.0817 m)
-    diag = math.hypot(l, w)
-    veh = ff.rectangle_vehicle(l, w)
+    diag = math.hypot(length, w)
+    veh = ff.rectangle_vehicle(length, w)
     wide = corridor_plan(diag + 0.06)
     r = ff.find_route(wide, veh, (3.0, (diag + 0.06) / 2, 0.0), (3.0, (diag + 0.06) / 2, 180.0))
     assert r.status == "reachable"
@@ -165,13 +165,13 @@ def test_start_and_goal_in_collision_are_reported():
 def test_building_drawn_at_odd_angle_gets_wall_aligned_headings():
     # a corridor only 2 cm wider than the vehicle, drawn at 17.5°: only headings within about
     # ±1.3° of the wall direction fit (FIELD-NOTES tilt formula), so the wall direction must be a slice
-    l, w = 0.9, 0.6
+    length, w = 0.9, 0.6
     W = 0.62
-    tilt = math.degrees(math.asin(W / math.hypot(l, w)) - math.atan2(w, l))
+    tilt = math.degrees(math.asin(W / math.hypot(length, w)) - math.atan2(w, length))
     assert tilt == pytest.approx(1.28, abs=0.01)   # FIELD-NOTES: 0.9 × 0.6 in 0.62 m → 1.28°
     corridor = shapely.affinity.rotate(shapely.box(0, 0, 8, W), 17.5, origin=(0, 0))
     plan = Plan.from_geometries(walls=[corridor])
-    veh = ff.rectangle_vehicle(l, w, margin=0.0)
+    veh = ff.rectangle_vehicle(length, w, margin=0.0)
     c = shapely.affinity.rotate(shapely.Point(1.0, W / 2), 17.5, origin=(0, 0))
     g = shapely.affinity.rotate(shapely.Point(7.0, W / 2), 17.5, origin=(0, 0))
     r = ff.find_route(plan, veh, (c.x, c.y, 17.5), (g.x, g.y, 17.5), heading_step_deg=5.0)

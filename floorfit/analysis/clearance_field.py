@@ -38,7 +38,8 @@ def choose_cell_size(bounds, target: float = 0.05, max_cells: int = MAX_CELLS) -
 
 @dataclass
 class ClearanceField:
-    """``dist[iy, ix]``: clearance (metres) at the centre of cell (ix, iy), centre = (x0 + (ix+½)·cell, y0 + (iy+½)·cell)."""
+    """``dist[iy, ix]``: clearance (metres) at the centre of cell (ix, iy),
+    centre = (x0 + (ix+½)·cell, y0 + (iy+½)·cell)."""
 
     x0: float
     y0: float

@@ -204,7 +204,8 @@ def _pairs_table(comparison: Any) -> str:
             + "</tbody></table>") if rows else '<p class="muted">Every station pair is reachable in both layouts.</p>'
     extra = ""
     if comparison.stations_only_before or comparison.stations_only_after:
-        extra = (f'<p class="muted">Stations only in BEFORE: {_e(", ".join(comparison.stations_only_before)) or "none"}; '
+        extra = (f'<p class="muted">Stations only in BEFORE: '
+                 f'{_e(", ".join(comparison.stations_only_before)) or "none"}; '
                  f'only in AFTER: {_e(", ".join(comparison.stations_only_after)) or "none"} (not compared).</p>')
     return body + extra
 
@@ -246,8 +247,10 @@ def render_comparison_html(comparison: Any, images: dict[str, Any], links: dict[
         link = f' — <a href="{_e(links[side])}">full report</a>' if side in links else ""
         verdict = "passes" if result.passed else "does not pass"
         side_parts.append(f"<div><h3>{side.upper()}: {_e(_name(result.plan.source))}{link}</h3>"
-                          f'<p class="muted">{verdict}; {_count(len(result.findings), "finding")}</p>{_img(images[side])}</div>')
-    title = f"floorfit layout comparison — {before.vehicle.name}: {_name(before.plan.source)} → {_name(after.plan.source)}"
+                          f'<p class="muted">{verdict}; {_count(len(result.findings), "finding")}</p>'
+                          f"{_img(images[side])}</div>")
+    title = (f"floorfit layout comparison — {before.vehicle.name}: "
+             f"{_name(before.plan.source)} → {_name(after.plan.source)}")
     cautions = "".join(f"<li>{_e(c)}</li>" for c in CAUTIONS)
     parts = [
         "<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
@@ -256,7 +259,8 @@ def render_comparison_html(comparison: Any, images: dict[str, Any], links: dict[
         f"<title>{_e(title)}</title><style>{CSS}{_EXTRA_CSS}</style></head><body><div class=\"page\">",
         '<header class="top"><div class="kicker">floorfit layout comparison</div>'
         f"<h1>{_e(before.vehicle.name)}: {_e(_name(before.plan.source))} → {_e(_name(after.plan.source))}</h1>"
-        f'<div class="meta">BEFORE <code>{_e(before.plan.source)}</code> · AFTER <code>{_e(after.plan.source)}</code></div>'
+        f'<div class="meta">BEFORE <code>{_e(before.plan.source)}</code> · '
+        f'AFTER <code>{_e(after.plan.source)}</code></div>'
         "</header><main>",
         f'<section class="verdict {"fail" if worse else "pass"}" id="verdict"><div class="word">{_e(word)}</div>'
         f"<p>{_e(line)}</p></section>",

@@ -63,7 +63,8 @@ def _polygon(points: Any, path: str, where: str) -> list[tuple[float, float]]:
     return out
 
 
-def outline_from_factsheet(path: str | Path) -> dict:
+# validates the factsheet field by field along its JSON paths, one error per bad field, then picks the outline
+def outline_from_factsheet(path: str | Path) -> dict:  # noqa: C901
     """Outline(s) of a vehicle from a VDA 5050 factsheet.
 
     Returns

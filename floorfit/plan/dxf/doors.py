@@ -139,7 +139,7 @@ def _group_arcs(prims: list[Prim]) -> dict[int, list[int]]:
 def door_size_evidence(prims: list[Prim], groups: dict[int, DoorGroup]) -> list[float]:
     """Door sizes in drawing units (swing radii, door-block widths) for the unit check."""
     sizes: list[float] = []
-    for i, p in enumerate(prims):
+    for p in prims:
         if p.arc is not None and p.role in ("door", "opening") and \
                 _DOOR_LAYER_SPAN[0] <= p.arc.span <= _DOOR_LAYER_SPAN[1]:
             sizes.append(p.arc.radius)
@@ -179,7 +179,8 @@ def _sector(arc: ArcInfo, grow: float) -> shapely.Geometry:
     return shapely.Polygon(ring).buffer(grow)
 
 
-def find_doors(prims: list[Prim], flat: list[list[np.ndarray]], groups: dict[int, DoorGroup],
+# four door recognisers in priority order sharing the remove/leaves sets: each claims primitives later ones skip
+def find_doors(prims: list[Prim], flat: list[list[np.ndarray]], groups: dict[int, DoorGroup],  # noqa: C901
                mpu: float) -> tuple[list[DoorFound], set[int], set[int]]:
     """Recognise doors once the unit (``mpu`` metres per drawing unit) is known.
 
@@ -237,8 +238,9 @@ def find_doors(prims: list[Prim], flat: list[list[np.ndarray]], groups: dict[int
         elif p.arc is not None and not p.closed and _DOOR_LAYER_SPAN[0] <= p.arc.span <= _DOOR_LAYER_SPAN[1]:
             layer_arcs.setdefault(p.layer, []).append(i)
     accepted: list[int] = []
-    for layer, members in layer_arcs.items():
-        typical = [prims[i].arc.radius for i in members if _CANDIDATE_SPAN[0] <= prims[i].arc.span <= _CANDIDATE_SPAN[1]]
+    for members in layer_arcs.values():
+        typical = [prims[i].arc.radius for i in members
+                   if _CANDIDATE_SPAN[0] <= prims[i].arc.span <= _CANDIDATE_SPAN[1]]
         ref = float(np.median(typical or [prims[i].arc.radius for i in members]))
         accepted.extend(i for i in members if 0.4 * ref <= prims[i].arc.radius <= 2.5 * ref)
     line_geoms: dict[int, shapely.Geometry] = {}

@@ -25,7 +25,8 @@ from ezdxf.math import BSpline, Vec3, fit_points_to_cad_cv
 
 from floorfit.plan.dxf.curves import arc_points, bulge_polyline, ellipse_points, spline_points
 
-__all__ = ["SOLID_PATTERNS", "FINISH_PATTERNS", "THIN_FILL_M", "hatch_policy", "hatch_vertex_count", "hatch_rings_flattener"]
+__all__ = ["SOLID_PATTERNS", "FINISH_PATTERNS", "THIN_FILL_M", "hatch_policy", "hatch_vertex_count",
+           "hatch_rings_flattener"]
 
 #: Patterns that fill cut walls / columns (common practice): the hatch is a solid obstacle.
 SOLID_PATTERNS = ("solid", "ansi31", "ansi32", "ansi33", "ar-conc", "ar-b816*", "ar-b88", "ar-brelm",

@@ -98,7 +98,8 @@ def _attrib_count(insert) -> int:
         return 0
 
 
-def check_block_graph(doc, limits: ImportLimits, path: str) -> BlockStats:
+# one iterative depth-first search finds cycles, depth and expanded size together, scanning each block once
+def check_block_graph(doc, limits: ImportLimits, path: str) -> BlockStats:  # noqa: C901
     """Refuse cycles, too deep nesting and entity blow-up before any block is expanded.
 
     Counts are exact Python integers (no overflow): a block's expanded size is

@@ -104,7 +104,8 @@ def outline_from_dxf(path, *, layer: str | None = None, block: str | None = None
         raise VehicleError("outline has a non-finite coordinate", str(path), f"entity #{entity.dxf.handle}")
     area2 = float(np.sum(xy[:, 0] * np.roll(xy[:, 1], -1) - np.roll(xy[:, 0], -1) * xy[:, 1]))
     chord_poly = bulge_polyline(xy, bulges, True, OUTLINE_TOLERANCE_M / mpu)
-    area_c = float(np.sum(chord_poly[:, 0] * np.roll(chord_poly[:, 1], -1) - np.roll(chord_poly[:, 0], -1) * chord_poly[:, 1]))
+    area_c = float(np.sum(chord_poly[:, 0] * np.roll(chord_poly[:, 1], -1)
+                          - np.roll(chord_poly[:, 0], -1) * chord_poly[:, 1]))
     orientation = np.sign(area_c if area_c != 0 else area2)
     if orientation == 0:
         raise VehicleError("outline encloses no area", str(path), f"entity #{entity.dxf.handle}")
