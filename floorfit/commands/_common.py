@@ -52,13 +52,35 @@ def write_json_atomic(path: str | Path, data) -> None:
 
 def add_plan_arguments(p) -> None:
     """The plan-reading options every command shares."""
-    p.add_argument("plan", metavar="PLAN.dxf", help="floor plan (DXF)")
+    p.add_argument("plan", metavar="PLAN.dxf", help="floor plan (DXF) or building model (IFC)")
     p.add_argument("--units", metavar="U", help="drawing unit, overriding the header: mm, cm, m, in, ft")
     p.add_argument("--window", metavar="XMIN,YMIN,XMAX,YMAX",
                    help="use only this part of the drawing (drawing units)")
+    p.add_argument("--storey", metavar="NAME|ELEVATION",
+                   help="IFC models: the storey to check (default: the storey nearest 0 m that holds walls)")
+
+
+def _vehicle_height(args) -> float | None:
+    """The height of the command's vehicle (its [loaded] state with --loaded), if it states one."""
+    from floorfit.errors import FloorfitError
+
+    if not getattr(args, "vehicle", None):
+        return None
+    from floorfit.vehicles.loading import split_vehicle_file
+    try:
+        vehicle, _train = split_vehicle_file(args.vehicle, state="loaded" if getattr(args, "loaded", False)
+                                             else "default")
+    except FloorfitError:
+        return None          # the command reports the vehicle file's problem itself
+    return getattr(vehicle, "height_m", None)
 
 
 def load_plan_from_args(args, roles=None):
     from floorfit.plan.dxf import load_plan
+    from floorfit.plan.ifc import band_for_height, is_ifc_path
     window = parse_floats(args.window, 4, "--window") if getattr(args, "window", None) else None
-    return load_plan(args.plan, units=getattr(args, "units", None), window=window, roles=roles)
+    if is_ifc_path(args.plan):     # the height band of a building model follows the vehicle's height
+        return load_plan(args.plan, units=getattr(args, "units", None), window=window, roles=roles,
+                         storey=getattr(args, "storey", None), band_top_m=band_for_height(_vehicle_height(args)))
+    return load_plan(args.plan, units=getattr(args, "units", None), window=window, roles=roles,
+                     storey=getattr(args, "storey", None))

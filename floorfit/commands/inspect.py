@@ -44,6 +44,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="read only layers matching these patterns (case-insensitive, * and ?)")
     parser.add_argument("--site", help="site file (TOML) with [layers] and [blocks] role tables")
     parser.add_argument("--json", metavar="OUT.json", help="also write the report as JSON")
+    parser.add_argument("--storey", metavar="NAME|ELEVATION",
+                        help="IFC models: the storey to read (default: the storey nearest 0 m that holds walls)")
 
 
 def write_json_atomic(path: str | os.PathLike, data: dict) -> None:
@@ -69,7 +71,20 @@ def write_json_atomic(path: str | os.PathLike, data: dict) -> None:
 def run(args: argparse.Namespace) -> int:
     from floorfit.plan.dxf import inspect_plan, read_roles
     from floorfit.plan.dxf.report import format_report
+    from floorfit.plan.ifc import inspect_ifc, is_ifc_path
 
+    if is_ifc_path(args.plan):     # a building model: storeys, element counts, unit, warnings
+        from floorfit.plan.ifc.report import format_ifc_report
+        for name in ("units", "window", "layers"):
+            if getattr(args, name):
+                raise InputError(f"--{name} applies to DXF drawings only", args.plan, f"--{name}")
+        report = inspect_ifc(args.plan, storey=args.storey)
+        print(format_ifc_report(report))
+        if args.json:
+            write_json_atomic(args.json, report)
+        return 0
+    if args.storey is not None:
+        raise InputError("--storey applies to IFC models only", args.plan, "--storey")
     roles = read_roles(args.site) if args.site else None
     window = parse_window(args.window) if args.window else None
     report = inspect_plan(args.plan, units=args.units, roles=roles, window=window, layers=args.layers)

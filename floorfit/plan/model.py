@@ -120,6 +120,11 @@ class Plan:
     layers: list[LayerInfo] = field(default_factory=list)
     issues: list[ImportIssue] = field(default_factory=list)
     dxf_version: str | None = None
+    # building models (IFC): the GlobalId of the element each wall / solid came from, and what
+    # is needed to go back into the model (format, storey, floor z, project GlobalId)
+    wall_ids: np.ndarray | None = None
+    solid_ids: np.ndarray | None = None
+    model: dict | None = None
 
     def __post_init__(self) -> None:
         self.walls = _as_geometry_array(self.walls, "walls")

@@ -13,6 +13,7 @@ See ``docs/import.md``.
 
 from __future__ import annotations
 
+from floorfit.errors import InputError
 from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M, import_drawing
 from floorfit.plan.dxf.limits import ImportLimits
 from floorfit.plan.dxf.outline import outline_from_dxf
@@ -26,8 +27,13 @@ __all__ = ["load_plan", "inspect_plan", "outline_from_dxf", "ImportLimits", "rea
 
 def load_plan(path, *, units: str | None = None, roles: dict | None = None,
               window: tuple[float, float, float, float] | None = None, layers: list[str] | None = None,
-              keep_door_leaves: bool = False, limits: ImportLimits | None = None) -> Plan:
+              keep_door_leaves: bool = False, limits: ImportLimits | None = None,
+              storey: str | float | None = None, band_top_m: float | None = None) -> Plan:
     """Read a DXF floor plan into a :class:`~floorfit.plan.model.Plan` (local frame, metres).
+
+    A path ending in ``.ifc`` is read as a building model instead
+    (:func:`floorfit.plan.ifc.load_ifc` with ``storey`` and ``band_top_m``; the DXF options
+    ``units``, ``window`` and ``layers`` do not apply to it).
 
     Parameters
     ----------
@@ -67,5 +73,15 @@ def load_plan(path, *, units: str | None = None, roles: dict | None = None,
     InputError
         malformed ``units``, ``window``, ``layers`` or ``roles``.
     """
+    from floorfit.plan.ifc import is_ifc_path, load_ifc
+
+    if is_ifc_path(path):
+        for name, value in (("--units", units), ("--window", window), ("--layers", layers)):
+            if value:
+                raise InputError(f"{name} applies to DXF drawings only; an IFC model states its own unit "
+                                 f"and is read whole", str(path), name)
+        return load_ifc(path, storey=storey, band_top_m=band_top_m)
+    if storey is not None:
+        raise InputError("--storey applies to IFC models only", str(path), "--storey")
     return import_drawing(path, units=units, roles=roles, window=window, layers=layers,
                           keep_door_leaves=keep_door_leaves, limits=limits).plan
