@@ -35,7 +35,10 @@ def world():
     room = box(0, 0, 8, 6)
     solids = [box(2.0, 2.0, 2.6, 4.2), Polygon([(5, 1), (6.2, 1.4), (5.6, 2.4)]), box(4.0, 4.5, 4.3, 6.0)]
     origin = (300.0, -40.0)          # geometry is given in the drawing frame; motions below are local
-    move = lambda g: shapely.affinity.translate(g, *origin)
+
+    def move(g):
+        return shapely.affinity.translate(g, *origin)
+
     plan = Plan.from_geometries(walls=[move(room)], solids=[move(g) for g in solids], origin=origin)
     veh = ff.rectangle_vehicle(0.8, 0.5, reference_to_front=0.6, mode="car", min_turn_radius_m=ARC_R)
     slices = build_slices(plan, veh, heading_step_deg=5.0)

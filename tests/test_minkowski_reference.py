@@ -57,13 +57,13 @@ def test_unit_square_plus_rotated_square():
 def test_box_cobstacle_area_mixed_area_formula(theta, expected):
     # C-obstacle area of an a×b box for an l×w rectangle at heading θ (mixed area of two
     # rectangles; FIELD-NOTES): ab + lw + l(a|sinθ| + b|cosθ|) + w(a|cosθ| + b|sinθ|)
-    a, b, l, w = 2.0, 1.0, 0.9, 0.6
+    a, b, length, w = 2.0, 1.0, 0.9, 0.6
     t = math.radians(theta)
-    formula = a * b + l * w + l * (a * abs(math.sin(t)) + b * abs(math.cos(t))) \
+    formula = a * b + length * w + length * (a * abs(math.sin(t)) + b * abs(math.cos(t))) \
         + w * (a * abs(math.cos(t)) + b * abs(math.sin(t)))
     assert formula == pytest.approx(expected, abs=1e-6)
     obs = prepare_obstacles([], [box(0, 0, a, b)])
-    fp = shapely.affinity.rotate(box(-l / 2, -w / 2, l / 2, w / 2), theta, origin=(0, 0))
+    fp = shapely.affinity.rotate(box(-length / 2, -w / 2, length / 2, w / 2), theta, origin=(0, 0))
     pieces = cobstacle_pieces(obs, [np.asarray(fp.exterior.coords)[:-1]])
     assert shapely.union_all(pieces).area == pytest.approx(formula, rel=1e-12)
 
@@ -81,8 +81,9 @@ def test_nonconvex_footprint_and_obstacle_match_pairwise_union():
     b = [(int(round(x * S)), int(round(y * S))) for x, y in F.exterior.coords[:-1]]
     swept = pyclipper.MinkowskiSum(b, a, True)
     polys = [Polygon(np.asarray(p) / S) for p in swept]
-    ref = shapely.union_all([shapely.make_valid(p) for p in polys] + [shapely.affinity.translate(L, *F.exterior.coords[0]),
-                            shapely.affinity.translate(F, *L.exterior.coords[0])])
+    ref = shapely.union_all([shapely.make_valid(p) for p in polys]
+                            + [shapely.affinity.translate(L, *F.exterior.coords[0]),
+                               shapely.affinity.translate(F, *L.exterior.coords[0])])
     assert ours.symmetric_difference(ref).area < 1e-9
 
 

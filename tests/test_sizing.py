@@ -63,7 +63,9 @@ def moretti_length(a: float, b: float, w: float) -> float:
     # Longest rectangle of width w that turns a right-angle corner between corridors of widths
     # a and b: L* = min_t a/sin t + b/cos t − w/(sin t cos t)  (C. Moretti, "Moving a couch
     # around a corner", College Math. J. 33(3), 2002)
-    f = lambda t: a / math.sin(t) + b / math.cos(t) - w / (math.sin(t) * math.cos(t))
+    def f(t):
+        return a / math.sin(t) + b / math.cos(t) - w / (math.sin(t) * math.cos(t))
+
     r = minimize_scalar(f, bounds=(1e-3, math.pi / 2 - 1e-3), method="bounded", options={"xatol": 1e-12})
     return float(r.fun)
 
@@ -165,7 +167,8 @@ def test_size_command_writes_json_and_exit_codes(tmp_path, capsys):
     d = json.loads(out.read_text())
     assert d["vary"] == "width" and d["precision_m"] == 0.02 and d["heading_step_deg"] == 5.0
     # door 0.90 m less the 0.10 m of margin, the precision and the importer's curve tolerance (each side)
-    assert 0.80 - 0.02 - 2 * DEFAULT_CURVE_TOLERANCE_M - 0.002 <= d["largest_m"] < 0.80 and d["binding"]["clear_width_m"] == pytest.approx(0.9, abs=1e-6)
+    assert (0.80 - 0.02 - 2 * DEFAULT_CURVE_TOLERANCE_M - 0.002 <= d["largest_m"] < 0.80
+            and d["binding"]["clear_width_m"] == pytest.approx(0.9, abs=1e-6))
     assert "FITS" in capsys.readouterr().out
     # a vehicle wider than the door allows: exit 1, negative margin
     assert main(["size", *args, "--vehicle", str(tmp_path / "big.toml"), "--json", str(out)]) == 1

@@ -319,7 +319,8 @@ def _binding_place(plan, vehicle, stations, site, step, workers) -> tuple[dict |
     return binding, blocked, list(result.notes)
 
 
-def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary: str = "width",
+# validate, bracket and bisect, check monotonicity, find the binding place: the steps share the evaluation cache
+def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary: str = "width",  # noqa: C901
                  site: Site | None = None, heading_step_deg: float | None = None,
                  precision_m: float = DEFAULT_PRECISION_M, max_m: float | None = None,
                  find_binding: bool = True, upper_bound: bool = True, workers: int | None = 1,

@@ -44,7 +44,7 @@ def path_through(poses: Sequence, radius_m: float, *, train: Train | None = None
             raise InputError(f"turn radius {radius_m:g} m is below the tractor's minimum "
                              f"{train.tractor.min_turn_radius_m:g} m", where="--turn-radius")
     segments: list[Segment] = []
-    for i, (a, b) in enumerate(zip(poses[:-1], poses[1:])):
+    for a, b in zip(poses[:-1], poses[1:]):
         if math.hypot(b[0] - a[0], b[1] - a[1]) < 1e-12 and abs(math.remainder(b[2] - a[2], 2 * math.pi)) < 1e-12:
             continue
         segs = dubins_path(a, b, radius_m)

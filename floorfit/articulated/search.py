@@ -263,7 +263,7 @@ class _Primitives:
         self.items = items
         rel, s_h, k_h, a0, pid, steps, ends = [], [], [], [], [], [], []
         origin = (0.0, 0.0, 0.0)
-        for i, (kind, amount, side, r, _cost) in enumerate(items):
+        for i, (_kind, _amount, _side, _r, _cost) in enumerate(items):
             seg = self._segment(origin, i)
             m = follow([seg], train, cart_heading=0.0, tolerance_m=tolerance)
             n = len(m) - 1
@@ -339,7 +339,8 @@ class _Primitives:
         return x + c0 * ex - s0 * ey, y + s0 * ex + c0 * ey, th + eth
 
 
-def plan_forward(checker: TrainChecker, starts: Sequence, goal, *, goal_heading_tol_deg: float = 5.0,
+# one hybrid A* search over (x, y, heading, hitch angle); its closures share the node table, open list and goal test
+def plan_forward(checker: TrainChecker, starts: Sequence, goal, *, goal_heading_tol_deg: float = 5.0,  # noqa: C901
                  with_cart: bool = True, settings: SearchSettings | None = None,
                  heuristics: dict | None = None, trace: list | None = None) -> TrainPlanResult:
     """Search a forward motion of the train from one of ``starts`` to ``goal`` (local frame).

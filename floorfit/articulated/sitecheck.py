@@ -214,7 +214,8 @@ def train_route_sweep(plan: Plan, train: Train, start, goal, *, from_name: str =
     return _route_dict(plan, train, res.motion, from_name, to_name)
 
 
-def articulated_check(plan: Plan, train: Train, stations: list[Station], site=None, *,
+# each station, then each ordered station pair, then the turn-around, all filling one findings list and reach table
+def articulated_check(plan: Plan, train: Train, stations: list[Station], site=None, *,  # noqa: C901
                       reachable: dict[str, dict[str, bool]] | None = None, settings: SearchSettings | None = None,
                       progress: Callable[[str], None] | None = None, turnaround: bool = True,
                       floor=None) -> TrainCheck:

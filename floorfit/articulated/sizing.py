@@ -62,7 +62,8 @@ class CartLengthResult:
                 "evaluations": self.evaluations, "notes": list(self.notes)}
 
 
-def largest_cart_length(plan: Plan, train: Train, segments: Sequence[Segment], *, precision_m: float = 0.01,
+# bracket, bisection and monotonicity re-check of the tongue share one lo/hi bracket and evaluation counter
+def largest_cart_length(plan: Plan, train: Train, segments: Sequence[Segment], *, precision_m: float = 0.01,  # noqa: C901
                         checks: int = 8, tolerance_m: float = DEFAULT_TOLERANCE_M,
                         checker: TrainChecker | None = None) -> CartLengthResult:
     """Longest tongue (m) for which ``train`` follows the tractor path ``segments`` (local frame)

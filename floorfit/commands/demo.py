@@ -31,8 +31,8 @@ def run(args) -> int:
     site = read_site(paths["site"])
     plan = load_plan(paths["plan"], roles=site.roles)
     vehicle = load_vehicle(paths["vehicle"])
-    print(f"vehicle: {vehicle.name}, {vehicle.length_m:.2f} × {vehicle.width_m:.2f} m, margin {vehicle.margin_m:.2f} m, "
-          f"{vehicle.mode}")
+    print(f"vehicle: {vehicle.name}, {vehicle.length_m:.2f} × {vehicle.width_m:.2f} m, "
+          f"margin {vehicle.margin_m:.2f} m, {vehicle.mode}")
     print()
     for a, b, start, goal in DEMO_ROUTES:
         r = find_route(plan, vehicle, start, goal)

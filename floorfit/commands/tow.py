@@ -36,7 +36,8 @@ def add_arguments(p) -> None:
     p.add_argument("--json", metavar="OUT.json", help="write the answer as JSON")
 
 
-def run(args) -> int:
+# the tow command end to end: route or search, then verdict, cart sizing and turn circle, into one answer
+def run(args) -> int:  # noqa: C901
     from floorfit.articulated import (
         SearchSettings,
         TrainChecker,

@@ -200,7 +200,8 @@ def load_vehicle(path: str | Path, state: str = "default") -> Vehicle:
     return vehicle_from_table(read_toml(path, VehicleError), str(path), state=state)
 
 
-def vehicle_from_table(data: dict, src: str, *, state: str = "default", extra_keys: tuple[str, ...] = (),
+# validates every key of the vehicle table in order (footprint, loaded, motion, outline source), one error per key
+def vehicle_from_table(data: dict, src: str, *, state: str = "default", extra_keys: tuple[str, ...] = (),  # noqa: C901
                        default_mode: str = "omni") -> Vehicle:
     """Validate an already parsed vehicle table (``name``, ``[footprint]``, ``[motion]``, ``[loaded]``).
 

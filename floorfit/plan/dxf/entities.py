@@ -130,8 +130,8 @@ class EntityGeometry:
             bulges = np.zeros(len(pts))
             widths = [0.0]
             ocs = None
-        self._polyline(pts, bulges, max(0.0, float(max(widths))), bool(e.is_closed), ocs if ocs is not None else np.eye(3),
-                       ctx, layer, role, handle, where, "POLYLINE")
+        self._polyline(pts, bulges, max(0.0, float(max(widths))), bool(e.is_closed),
+                       ocs if ocs is not None else np.eye(3), ctx, layer, role, handle, where, "POLYLINE")
 
     # -- curves ------------------------------------------------------------------------------
     def _arc(self, e, ctx, layer, role, handle, where, full: bool):

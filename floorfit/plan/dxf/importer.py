@@ -131,7 +131,8 @@ def _ring_polygon(ring: np.ndarray) -> list[shapely.Polygon]:
     return _polygons_of(shapely.Polygon(ring))
 
 
-def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set[int], leaves: set[int],
+# one dispatch over primitive kinds (fill, wide polyline, solid, line) into the same parallel lists and line pools
+def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set[int], leaves: set[int],  # noqa: C901
                     keep_leaves: bool, notes: Counter, mpu: float, tol_units: float):
     """Linework paths and solid polygons in drawing units (world frame), each with its
     attributes (layer, bottom, top) in parallel lists ``wall_attrs`` / ``solid_attrs``."""
@@ -279,11 +280,13 @@ def _skipped_issues(walk: WalkResult) -> list[ImportIssue]:
         listed = ", ".join(f"#{h}" for h in handles[:_MAX_LISTED_HANDLES])
         more = f" and {len(handles) - _MAX_LISTED_HANDLES} more" if len(handles) > _MAX_LISTED_HANDLES else ""
         issues.append(ImportIssue("skipped", f"{len(handles)} {dxftype} entit{'y' if len(handles) == 1 else 'ies'} "
-                                  f"ignored ({what}, not an obstacle): {listed}{more}", handles[0] if handles else None))
+                                  f"ignored ({what}, not an obstacle): {listed}{more}",
+                                  handles[0] if handles else None))
     return issues
 
 
-def import_drawing(path, *, units: str | None = None, roles: dict | None = None, window=None,
+# the import pipeline stage by stage (read, walk, units, doors, geometry, local frame, issues), as marked below
+def import_drawing(path, *, units: str | None = None, roles: dict | None = None, window=None,  # noqa: C901
                    layers=None, keep_door_leaves: bool = False, limits: ImportLimits | None = None,
                    curve_tolerance_m: float = DEFAULT_CURVE_TOLERANCE_M) -> ImportResult:
     """Import a DXF floor plan; see :func:`floorfit.plan.dxf.load_plan` for the parameters."""

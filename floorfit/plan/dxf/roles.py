@@ -241,7 +241,8 @@ def _checked_role(value: Any, allowed: tuple[str, ...], where: str) -> str:
     return value
 
 
-def roles_from_site_table(table: dict[str, Any], path: str) -> dict[str, Any]:
+# validates every entry of [layers] and [blocks] in order, one error per bad key, pattern or role
+def roles_from_site_table(table: dict[str, Any], path: str) -> dict[str, Any]:  # noqa: C901
     """Validate the ``[layers]`` and ``[blocks]`` tables of a parsed site file.
 
     Other top-level tables (stations, clearance, ...) belong to other readers and are

@@ -174,7 +174,8 @@ class _Walker(EntityGeometry):
             self.visit(entity, top_ctx)
         return self.out
 
-    def visit(self, e, ctx: _Ctx) -> None:
+    # the per-entity dispatcher: each early exit (damaged, INSERT, filtered, skipped, text, no handler) is one branch
+    def visit(self, e, ctx: _Ctx) -> None:  # noqa: C901
         self._entity = e
         dxftype = e.dxftype()
         try:
@@ -310,7 +311,8 @@ class _Walker(EntityGeometry):
         return True
 
     # -- INSERT ----------------------------------------------------------------------------
-    def visit_insert(self, e, ctx: _Ctx, layer: str) -> None:
+    # one INSERT: block, transform, forced role, attributes and array grid, then the recursion per grid cell
+    def visit_insert(self, e, ctx: _Ctx, layer: str) -> None:  # noqa: C901
         handle = e.dxf.get("handle", "?")
         raw_name = e.dxf.get("name", "")
         block = self.doc.blocks.get(raw_name)
@@ -328,7 +330,8 @@ class _Walker(EntityGeometry):
         try:
             m_child = np.array(list(e.matrix44().rows()), dtype=float)
         except Exception as exc:
-            raise PlanImportError(f"INSERT of block '{name}' has an invalid transform ({exc})", self.path, where) from None
+            raise PlanImportError(f"INSERT of block '{name}' has an invalid transform ({exc})",
+                                  self.path, where) from None
         if not np.all(np.isfinite(m_child)):
             raise PlanImportError(f"INSERT of block '{name}' has a non-finite insertion point, scale "
                                   "or rotation", self.path, where)
@@ -351,7 +354,8 @@ class _Walker(EntityGeometry):
             if att.dxf.get("flags", 0) & 1:   # invisible attribute
                 continue
             if self.role_for(att_layer, ctx) != "ignore":
-                self.visit_text(att, ctx, att_layer, att.dxf.get("handle", "?"), self.where(att.dxf.get("handle", "?"), ctx))
+                self.visit_text(att, ctx, att_layer, att.dxf.get("handle", "?"),
+                                self.where(att.dxf.get("handle", "?"), ctx))
         rows = int(e.dxf.get("row_count", 1) or 1) if e.dxf.get("row_spacing", 0) else 1
         cols = int(e.dxf.get("column_count", 1) or 1) if e.dxf.get("column_spacing", 0) else 1
         rows, cols = max(rows, 1), max(cols, 1)
@@ -364,7 +368,8 @@ class _Walker(EntityGeometry):
             for r in range(rows):
                 for c in range(cols):
                     ox, oy = c * cs, r * rs
-                    v = np.array([ox * math.cos(rot) - oy * math.sin(rot), ox * math.sin(rot) + oy * math.cos(rot), 0.0])
+                    v = np.array([ox * math.cos(rot) - oy * math.sin(rot),
+                                  ox * math.sin(rot) + oy * math.cos(rot), 0.0])
                     offsets.append(v @ ocs)
         top = ctx.top if ctx.block_name is not None else handle
         for off in offsets:
