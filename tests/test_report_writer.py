@@ -42,8 +42,8 @@ def test_json_is_always_written_as_the_marker(tmp_path, result):
 
 
 def test_unknown_format_is_refused(tmp_path, result):
-    with pytest.raises(InputError, match="unknown report format 'pdf'"):
-        write_report(result, tmp_path / "out", formats=("pdf",), quiet=True)
+    with pytest.raises(InputError, match="unknown report format 'docx'"):
+        write_report(result, tmp_path / "out", formats=("docx",), quiet=True)
     assert not (tmp_path / "out").exists()
 
 

@@ -25,6 +25,8 @@ def add_arguments(p) -> None:
                    help="draw the drivable path and swept area between two stations; repeatable")
     p.add_argument("--loaded", action="store_true", help="use the vehicle file's [loaded] outline and height")
     p.add_argument("--quiet", action="store_true", help="no progress output")
+    p.add_argument("--revision", metavar="REV", help="revision on the report (overrides the site file's [project])")
+    p.add_argument("--paper", choices=("a4", "letter", "a3"), default="a4", help="paper of report.pdf (default a4)")
 
 
 def run(args) -> int:
@@ -70,7 +72,11 @@ def check_and_report(args):
                                progress=progress.stage, floor=result.turnability.get("fits"))
         merge_into_result(result, tc)
     progress.done()
-    written = write_report(result, args.out, force=args.force, quiet=args.quiet)
+    project = dict(site.project)
+    if getattr(args, "revision", None):
+        project["revision"] = args.revision
+    written = write_report(result, args.out, force=args.force, quiet=args.quiet, project=project,
+                           paper=getattr(args, "paper", "a4"))
     return result, written
 
 

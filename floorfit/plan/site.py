@@ -25,6 +25,14 @@ Site file (TOML, metres and degrees, drawing frame)::
     [heights]                       # layer-name pattern → [bottom, top] above the floor, metres
     "M-CONV-OVHD" = [2.1, 2.6]      # an overhead conveyor: only vehicles taller than 2.1 m meet it
     "A-DOOR-HEAD" = [2.1, 1e9]      # a door header: 2.1 m and up
+
+    [project]                       # shown on the report's cover and title blocks; all optional
+    name = "Harbourside DC, level 0"
+    number = "P-2031"               # a string or a whole number
+    client = "Harbourside Logistics"
+    revision = "B"
+    prepared_by = "J. Planner"
+    date = 2025-03-14               # a TOML date or "YYYY-MM-DD"; never taken from the clock
 """
 
 from __future__ import annotations
@@ -40,6 +48,7 @@ from floorfit.plan.stations import Station
 from floorfit.tomlcheck import check_keys, get_number, get_string, read_toml
 
 __all__ = ["Site", "read_site", "parse_station_flag", "apply_height_ranges", "CLEARANCE_REFERENCES", "DEFAULT_PERSON_WIDTH_M",
+           "PROJECT_KEYS",
            "DEFAULT_HEADING_TOLERANCE_DEG", "stations_from_drawing"]
 
 #: Width of floor a person needs to walk through, metres (common practice: shoulder width
@@ -56,11 +65,14 @@ CLEARANCE_REFERENCES = {
 }
 DEFAULT_CLEARANCE = "b56.5"
 
-_TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights", "report")
+_TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights", "report", "project")
 _REPORT = ("routes",)
 _STATION = ("x", "y", "heading", "heading_tolerance")
 _CLEARANCE = ("required", "reference")
 _ANALYSIS = ("heading_step", "person_width")
+#: Keys of the [project] table (report cover and title blocks), all optional.
+PROJECT_KEYS = ("name", "number", "client", "revision", "prepared_by", "date")
+_PROJECT_TEXT_MAX = 200
 _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 _.\-/#]{0,63}$")
 
 
@@ -78,6 +90,7 @@ class Site:
     person_width_m: float = DEFAULT_PERSON_WIDTH_M
     heights: dict[str, tuple[float, float]] = field(default_factory=dict)
     routes: list[tuple[str, str]] = field(default_factory=list)
+    project: dict[str, str] = field(default_factory=dict)     # [project] fields given (text)
 
 
 def _check_name(name: str, path: str | None, where: str, error=SiteError) -> str:
@@ -144,6 +157,7 @@ def read_site(path: str | Path) -> Site:
         if not (math.isfinite(lo) and lo >= 0 and hi > lo):
             raise SiteError(f"need 0 ≤ bottom < top (metres), got [{lo:g}, {hi:g}]", src, where)
         site.heights[pattern] = (lo, hi)
+    site.project = _read_project(data.get("project", {}), src)
     analysis = data.get("analysis", {})
     if not isinstance(analysis, dict):
         raise SiteError("[analysis] must be a table", src, "analysis")
@@ -153,6 +167,38 @@ def read_site(path: str | Path) -> Site:
     site.person_width_m = get_number(analysis, "person_width", src, "analysis.", SiteError,
                                      default=DEFAULT_PERSON_WIDTH_M, minimum=0.1, maximum=3.0)
     return site
+
+
+def _read_project(table: Any, src: str) -> dict[str, str]:
+    """The [project] table as text fields: strings (``number`` may be a whole number, ``date`` a
+    TOML date or ``YYYY-MM-DD``), one line each, at most 200 characters."""
+    import datetime
+
+    if not isinstance(table, dict):
+        raise SiteError("[project] must be a table of name, number, client, revision, prepared_by, date",
+                        src, "project")
+    check_keys(table, PROJECT_KEYS, src, "project.", SiteError)
+    out: dict[str, str] = {}
+    for key in PROJECT_KEYS:
+        if key not in table:
+            continue
+        value, where = table[key], f"project.{key}"
+        if key == "number" and isinstance(value, int) and not isinstance(value, bool):
+            value = str(value)
+        elif key == "date" and isinstance(value, datetime.date) and not isinstance(value, datetime.datetime):
+            value = value.isoformat()
+        elif key == "date" and isinstance(value, str):
+            try:
+                value = datetime.date.fromisoformat(value.strip()).isoformat()
+            except ValueError:
+                raise SiteError(f"expected a date YYYY-MM-DD, got {value!r}", src, where) from None
+        elif not isinstance(value, str):
+            wanted = {"number": "a string or a whole number", "date": "a date (YYYY-MM-DD)"}.get(key, "a string")
+            raise SiteError(f"expected {wanted}, got {type(value).__name__} {value!r}", src, where)
+        if not value.isprintable() or len(value) > _PROJECT_TEXT_MAX:
+            raise SiteError(f"must be one line of at most {_PROJECT_TEXT_MAX} printable characters", src, where)
+        out[key] = value.strip()
+    return out
 
 
 def apply_height_ranges(plan, ranges: dict[str, tuple[float, float]]):

@@ -404,8 +404,12 @@ def _numbered(sections: Iterable[Section | None]) -> tuple[str, list[tuple[str, 
     return "".join(html_parts), toc
 
 
-def render_html(result: Any, images: Iterable[FigureImage]) -> str:
-    """The whole report page as a string (UTF-8 when written)."""
+def render_html(result: Any, images: Iterable[FigureImage], *, sheets: Sequence[Any] | None = None,
+                sheet_viewport_mm: tuple[float, float] | None = None) -> str:
+    """The whole report page as a string (UTF-8 when written). ``sheets`` (from
+    :func:`floorfit.report.sheets.build_sheets`) add the finding sheets with their close-ups."""
+    from floorfit.report.sheets_html import SHEETS_CSS, sheets_section
+
     by_key = {img.key: img for img in images}
     numbers = {str(f.id): n for n, f in numbered_findings(result.findings) if f.id}
     routes = list(getattr(result, "routes", None) or [])
@@ -425,14 +429,15 @@ def render_html(result: Any, images: Iterable[FigureImage]) -> str:
             [by_key.get("fig-routes")], "No route geometry was given."))
     body, toc = _numbered([
         _settings(result, by_key.get("fig-vehicle")), plan_section, turn_section, routes_section,
-        _findings_table(result), _reachability(result, numbers), _notes(result), _definitions(),
+        _findings_table(result), sheets_section(result, sheets, by_key, _figure, sheet_viewport_mm),
+        _reachability(result, numbers), _notes(result), _definitions(),
         _cautions()])
     title = f"floorfit site check — {result.vehicle.name} in {_name(result.plan.source)}"
     parts = [
         "<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
         f'<meta name="generator" content="floorfit {_e(__version__)}">',
-        f"<title>{_e(title)}</title><style>{CSS}</style></head><body><div class=\"page\">",
+        f"<title>{_e(title)}</title><style>{CSS}{SHEETS_CSS if sheets else ''}</style></head><body><div class=\"page\">",
         _header(result), "<main>", _verdict(result, numbers),
         _toc([("verdict", "Verdict"), *toc]), body, "</main>",
         f"<footer>Made with floorfit {_e(__version__)}. A geometric check of a drawing, not a risk "

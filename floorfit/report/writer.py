@@ -33,7 +33,7 @@ from floorfit.errors import InputError
 from floorfit.report.progress import Progress
 from floorfit.report.tables import CSV_COLUMNS, REPORT_FORMAT
 
-__all__ = ["OUTPUT_FILES", "COMPLETION_MARKER", "write_report", "floorfit_wrote"]
+__all__ = ["OUTPUT_FILES", "COMPLETION_MARKER", "PAPER_SIZES", "write_report", "floorfit_wrote"]
 
 #: Format name → file name in the output folder.
 OUTPUT_FILES: dict[str, str] = {
@@ -41,13 +41,17 @@ OUTPUT_FILES: dict[str, str] = {
     "json": "findings.json",
     "csv": "findings.csv",
     "dxf": "overlay.dxf",
+    "pdf": "report.pdf",
 }
+#: Paper sizes of report.pdf (landscape pages).
+PAPER_SIZES = ("a4", "letter", "a3")
 #: The file whose presence means "this folder holds a complete report".
 COMPLETION_MARKER = OUTPUT_FILES["json"]
 
 _TMP_PREFIX = ".floorfit-partial-"
 _HTML_SIGNATURE = b'<meta name="generator" content="floorfit'
 _DXF_SIGNATURE = b"floorfit_overlay"
+_PDF_SIGNATURE = b"floorfit-report"        # the PDF's Keywords entry (document information, at the end)
 _SNIFF_BYTES = 256 * 1024
 
 
@@ -81,7 +85,18 @@ def floorfit_wrote(path: str | os.PathLike) -> bool:
         return first == [",".join(CSV_COLUMNS)]
     if name == OUTPUT_FILES["dxf"]:
         return _DXF_SIGNATURE in _head(path)
+    if name == OUTPUT_FILES["pdf"]:
+        return _head(path, 5) == b"%PDF-" and _PDF_SIGNATURE in _tail(path)
     return False
+
+
+def _tail(path: Path, size: int = 64 * 1024) -> bytes:
+    try:
+        with open(path, "rb") as fh:
+            fh.seek(max(path.stat().st_size - size, 0))
+            return fh.read(size)
+    except OSError:
+        return b""
 
 
 def _check_formats(formats: Iterable[str], out_dir: Path) -> list[str]:
@@ -151,7 +166,8 @@ def _sync_folder(folder: Path) -> None:
         os.close(fd)
 
 
-def _render(result: Any, chosen: list[str], progress: Progress) -> dict[str, bytes]:
+def _render(result: Any, chosen: list[str], progress: Progress, project: Any = None,
+            paper: str = "a4") -> dict[str, bytes]:
     # Imported here so that `import floorfit.report` stays light.
     from floorfit.report.figures import draw_report_figures
     from floorfit.report.html import render_html
@@ -159,11 +175,28 @@ def _render(result: Any, chosen: list[str], progress: Progress) -> dict[str, byt
     from floorfit.report.tables import findings_csv, findings_json
 
     contents: dict[str, bytes] = {}
+    sheets = None
+    if "html" in chosen or "pdf" in chosen:
+        from floorfit.report.pdf import page_layout
+        from floorfit.report.sheets import build_sheets, sheet_obstacles
+
+        layout = page_layout(paper)
+        obstacles = sheet_obstacles(result)
+        sheets = build_sheets(result, viewport_mm=layout.viewport, obstacles=obstacles)
     if "html" in chosen:
+        from floorfit.report.sheets_html import closeup_images
+
         progress.stage("drawing figures")
         images = draw_report_figures(result)
+        images += closeup_images(result, sheets, layout.viewport, obstacles)
         progress.stage("composing report.html")
-        contents["html"] = render_html(result, images).encode("utf-8")
+        contents["html"] = render_html(result, images, sheets=sheets,
+                                       sheet_viewport_mm=layout.viewport).encode("utf-8")
+    if "pdf" in chosen:
+        from floorfit.report.pdf import render_pdf
+
+        progress.stage("drawing report.pdf")
+        contents["pdf"] = render_pdf(result, project=project, paper=paper, sheets=sheets, obstacles=obstacles)
     if "csv" in chosen:
         progress.stage("tabulating findings.csv")
         contents["csv"] = findings_csv(result)
@@ -176,8 +209,8 @@ def _render(result: Any, chosen: list[str], progress: Progress) -> dict[str, byt
 
 
 def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False,
-                 formats: Iterable[str] = ("html", "json", "csv", "dxf"),
-                 quiet: bool = False) -> dict[str, Path]:
+                 formats: Iterable[str] = ("html", "json", "csv", "dxf", "pdf"),
+                 quiet: bool = False, project: Any = None, paper: str = "a4") -> dict[str, Path]:
     """Write the report files of ``result`` (a :class:`~floorfit.analysis.findings.CheckResult`)
     into ``out_dir`` and return ``{format: path}`` of the files written.
 
@@ -191,18 +224,29 @@ def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False
     force : bool
         Write into a folder that holds other files (they are left alone).
     formats : iterable of str
-        Any of ``"html"``, ``"json"``, ``"csv"``, ``"dxf"``; ``"json"`` is always added.
+        Any of ``"html"``, ``"json"``, ``"csv"``, ``"dxf"``, ``"pdf"``; ``"json"`` is always added.
     quiet : bool
         No progress output on standard error.
+    project : ProjectInfo or mapping, optional
+        Project fields for the PDF's cover and title blocks (:mod:`floorfit.report.project`).
+    paper : str
+        ``"a4"`` (default), ``"letter"`` or ``"a3"``: the PDF's paper, printed landscape.
     """
     out_dir = Path(out_dir)
     chosen = _check_formats((formats,) if isinstance(formats, str) else formats, out_dir)
+    if str(paper).lower() not in PAPER_SIZES:
+        raise InputError(f"unknown paper {paper!r}; choose from {', '.join(PAPER_SIZES)}", str(out_dir), "paper")
+    paper = str(paper).lower()
     old_ours = _check_folder(out_dir, force)
     targets = {fmt: out_dir / OUTPUT_FILES[fmt] for fmt in chosen}
     _check_not_input(targets.values(), result.plan.source, out_dir)
 
     progress = Progress(total_stages=len(chosen) + (1 if "html" in chosen else 0) + 1, quiet=quiet)
-    contents = _render(result, chosen, progress)
+    from floorfit.report.project import ProjectInfo
+
+    if project is not None and not isinstance(project, ProjectInfo):
+        project = ProjectInfo.from_mapping(project)
+    contents = _render(result, chosen, progress, project, paper)
 
     progress.stage(f"saving to {out_dir}")
     temps: dict[str, Path] = {}
