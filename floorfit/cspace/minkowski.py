@@ -431,18 +431,61 @@ def prepare_obstacles(walls, solids) -> ObstacleSet:
     return ObstacleSet(groups, np.asarray(nonconvex, dtype=object), bounds, n_edges)
 
 
-def footprint_parts_at(parts: list[Polygon], heading_deg: float, grow_m: float = 0.0) -> list[np.ndarray]:
-    """Convex footprint parts rotated to ``heading_deg`` and grown by ``grow_m`` (mitre offset), as vertex arrays.
+#: Largest turn (degrees) one edge of a grown corner covers: a corner of a convex part that turns
+#: by more is grown by several edges tangent to the disc. Each such edge lies ``g / cos(½·this)``
+#: from the corner at most (√2·g for 90°), where a single mitre on an acute corner reaches far
+#: further (2.6·g at a 45° corner, 10·g at the mitre limit).
+GROW_EDGE_TURN_DEG = 90.0
 
-    A mitred outward offset of a convex polygon contains its Minkowski sum with a disc of
-    radius ``grow_m``, so growing is conservative.
+
+def grow_convex(vertices: np.ndarray, grow_m: float, max_turn_deg: float = GROW_EDGE_TURN_DEG) -> np.ndarray:
+    """A convex polygon grown by ``grow_m``: its Minkowski sum with a polygon circumscribing the disc.
+
+    Every edge moves out by exactly ``grow_m``; each corner gets a polyline of edges tangent
+    to the circle of radius ``grow_m`` about it, turning at most ``max_turn_deg`` per edge (a
+    right-angled corner keeps its one mitre vertex). The result contains the round offset
+    (so growing is conservative) and lies within ``grow_m / cos(½·max_turn_deg)`` of the
+    polygon. Rotation-equivariant: growing then rotating equals rotating then growing.
+    """
+    V = np.asarray(vertices, dtype=float)
+    if len(V) > 1 and np.allclose(V[0], V[-1]):
+        V = V[:-1]
+    if grow_m <= 0 or len(V) < 3:
+        return V.copy()
+    V = _ccw_ring(V)
+    E = np.roll(V, -1, axis=0) - V
+    L = np.hypot(E[:, 0], E[:, 1])
+    keep = L > 1e-12
+    V, E, L = V[keep], E[keep], L[keep]
+    normal = np.c_[E[:, 1], -E[:, 0]] / L[:, None]          # outward (CCW ring)
+    ang_out = np.arctan2(normal[:, 1], normal[:, 0])
+    n_in = np.roll(normal, 1, axis=0)                        # normal of the edge arriving at vertex i
+    ang_in = np.roll(ang_out, 1)
+    # turn in [0, π): a collinear vertex may come out a hair negative, which is no turn at all
+    turn = np.clip(np.arctan2(n_in[:, 0] * normal[:, 1] - n_in[:, 1] * normal[:, 0],
+                              np.sum(n_in * normal, axis=1)), 0.0, None)
+    step = np.radians(max_turn_deg)
+    out = []
+    for i in range(len(V)):
+        k = max(1, int(np.ceil(turn[i] / step - 1e-9)))
+        a = turn[i] / k
+        r = grow_m / np.cos(a / 2.0)
+        psi = ang_in[i] + (np.arange(k) + 0.5) * a
+        out.append(V[i] + r * np.c_[np.cos(psi), np.sin(psi)])
+    return np.vstack(out)
+
+
+def footprint_parts_at(parts: list[Polygon], heading_deg: float, grow_m: float = 0.0) -> list[np.ndarray]:
+    """Convex footprint parts rotated to ``heading_deg`` and grown by ``grow_m`` (:func:`grow_convex`), as vertex arrays.
+
+    The grown part contains the part's Minkowski sum with a disc of radius ``grow_m``, so
+    growing is conservative.
     """
     out = []
     for p in parts:
         q = shapely.affinity.rotate(p, heading_deg, origin=(0, 0))
-        if grow_m > 0:
-            q = q.buffer(grow_m, join_style="mitre", mitre_limit=10.0)
-        out.append(np.asarray(q.exterior.coords)[:-1])
+        v = np.asarray(q.exterior.coords)[:-1]
+        out.append(grow_convex(v, grow_m) if grow_m > 0 else v)
     return out
 
 

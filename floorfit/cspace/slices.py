@@ -102,12 +102,58 @@ def choose_headings(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | N
             extra = list(extra_headings)
             h = extra[0] if extra else 0.0
         return make_heading_cells(0.0, only=[h])
-    step = heading_step_deg or default_step_deg(vehicle.radius_m)
+    step = check_heading_step(heading_step_deg) if heading_step_deg is not None else default_step(plan, vehicle)
     extra = [float(h) for h in extra_headings]
     if wall_directions and len(plan.walls):
         for d in dominant_directions_deg(plan.walls):
             extra.extend([d, d + 90.0, d + 180.0, d + 270.0])
     return make_heading_cells(step, extra)
+
+
+# --- heading step and stated tolerance (issue 16) ---
+#: Smallest and largest heading step a user may ask for, degrees: below 0.1° a check needs
+#: thousands of slices; above 45° a slice stands for more than an eighth of a turn.
+MIN_HEADING_STEP_DEG = 0.1
+MAX_HEADING_STEP_DEG = 45.0
+#: The default step is refined (down to :data:`REFINE_STEPS_DEG`) until the stated sound
+#: tolerance is at most this, metres.
+TARGET_TOLERANCE_M = 0.03
+REFINE_STEPS_DEG = (0.75, 0.5)
+
+
+def check_heading_step(step_deg) -> float:
+    """A user's heading step (degrees), refused unless finite and in [0.1, 45]."""
+    from floorfit.errors import InputError
+
+    try:
+        step = float(step_deg)
+    except (TypeError, ValueError):
+        raise InputError(f"heading step must be a number of degrees, got {step_deg!r}", None,
+                         "heading step") from None
+    if not (math.isfinite(step) and MIN_HEADING_STEP_DEG <= step <= MAX_HEADING_STEP_DEG):
+        raise InputError(f"heading step must be between {MIN_HEADING_STEP_DEG:g}° and {MAX_HEADING_STEP_DEG:g}°, "
+                         f"got {step_deg:g}°", None, "heading step")
+    return step
+
+
+def default_step(plan: Plan, vehicle: Vehicle) -> float:
+    """The default uniform heading step (degrees) for ``vehicle``.
+
+    The coarsest step whose half-cell rotation moves no footprint point more than 1 cm
+    (:func:`floorfit.cspace.headings.default_step_deg`), refined while the stated tolerance
+    (:func:`sound_tolerance_m`) exceeds :data:`TARGET_TOLERANCE_M`; very large vehicles stop at
+    the finest refinement and state a larger tolerance.
+    """
+    step = default_step_deg(vehicle.radius_m)
+    parts = convex_parts(vehicle.footprint)
+    for candidate in (step,) + tuple(s for s in REFINE_STEPS_DEG if s < step):
+        step = candidate
+        half = step / 2.0
+        grow = rotation_displacement_m(vehicle.radius_m, half) + plan.curve_tolerance_m
+        if sound_tolerance_m(parts, vehicle.footprint, half, grow) <= TARGET_TOLERANCE_M:
+            break
+    return step
+# --- end heading step
 
 
 def obstacle_clusters(obstacles: ObstacleSet, reach_m: float) -> np.ndarray:
@@ -484,9 +530,11 @@ def slice_recipe(plan: Plan, vehicle: Vehicle, cells: HeadingCells, bound: str) 
         # CLIP_GUARD_M: the grid snapping of the integer clipping must not shrink a C-obstacle
         jobs = [(parts, float(h), float(g) + CLIP_GUARD_M, anchor) for h, g in zip(cells.headings, grow)]
         gmax = float(grow.max())
-        grown = shapely.union_all([p.buffer(gmax, join_style="mitre", mitre_limit=10.0) for p in parts]) \
-            if gmax > 0 else fp
-        tolerance = float(shapely.hausdorff_distance(grown, fp)) if gmax > 0 else 0.0
+        # --- sound tolerance (issue 16): the largest clearance a pose can have and still be
+        # called blocked, measured for the widest cell (it bounds every narrower one)
+        k_max = int(np.argmax(cells.max_turn)) if len(cells) else 0
+        tolerance = sound_tolerance_m(parts, fp, float(cells.max_turn[k_max]) if len(cells) else 0.0, gmax)
+        # --- end sound tolerance
     else:
         jobs = []
         cache: dict[tuple, tuple] = {}
@@ -505,6 +553,33 @@ def slice_recipe(plan: Plan, vehicle: Vehicle, cells: HeadingCells, bound: str) 
     radius = float(np.max(np.hypot(verts[:, 0], verts[:, 1])))
     diameter = float(np.max(pdist(verts))) if len(verts) > 1 else 0.0
     return SliceRecipe(jobs, grow, tolerance, radius, diameter)
+
+
+def sound_tolerance_m(parts: list[Polygon], footprint: Polygon, max_turn_deg: float, grow_m: float,
+                      samples: int = 16, spacing_m: float = 0.002) -> float:
+    """Largest clearance (metres) a pose can have and still lie outside its sound slice.
+
+    A pose at heading h + δ (|δ| ≤ ``max_turn_deg``) is judged by the slice at h, whose
+    footprint is the convex ``parts`` grown by ``grow_m`` (:func:`footprint_parts_at`). It is
+    called blocked only if that grown footprint meets an obstacle, so only if the obstacle
+    comes within sup over points p of the grown footprint of d(p, footprint turned by δ).
+    This takes that distance over ``samples`` + 1 rotations spanning the cell and boundary
+    points of the grown footprint ``spacing_m`` apart, plus what the sampling can miss (half
+    the spacing; the rotation between samples, ρ·Δ/2). The grown footprint contains the
+    footprint at every δ, so this is the Hausdorff distance between the two, maximised over δ.
+    """
+    if grow_m <= 0 and max_turn_deg <= 0:
+        return 0.0
+    grown = shapely.union_all([Polygon(v) for v in footprint_parts_at(parts, 0.0, grow_m)])
+    pts = shapely.points(shapely.get_coordinates(shapely.segmentize(grown.boundary, spacing_m)))
+    rho = float(np.max(np.hypot(*shapely.get_coordinates(footprint).T)))
+    worst = 0.0
+    deltas = np.linspace(-max_turn_deg, max_turn_deg, samples + 1) if max_turn_deg > 0 else np.zeros(1)
+    for d in deltas:
+        turned = shapely.affinity.rotate(footprint, float(d), origin=(0, 0))
+        worst = max(worst, float(np.max(shapely.distance(pts, turned))))
+    between = rotation_displacement_m(rho, max_turn_deg / samples / 2.0) if max_turn_deg > 0 else 0.0
+    return worst + spacing_m / 2.0 + between
 
 
 def slice_domain(bounds: tuple[float, float, float, float], vehicle: Vehicle) -> Polygon:
