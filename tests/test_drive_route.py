@@ -293,8 +293,14 @@ def test_cli_prints_segments_and_exits_3_when_the_search_gives_up(tmp_path, caps
     assert {"type", "direction", "length_m", "angle_deg", "radius_m"} <= set(data["segments"][0])
     assert data["search"]["mode"] == "car"
     assert_path_clear(ff.load_plan(dxf), ff.load_vehicle(veh), np.array(data["path"]))
-    # one expansion is not enough for a path round the corner: a distinct status and exit code
+    # with reverse, a search stopped after one expansion hands over to the subdivision of the
+    # holonomic route, which is complete: still reachable
+    assert main(args[:-2] + ["--max-expansions", "1"]) == 0
+    capsys.readouterr()
+    # forward only, one expansion is not enough for a path round the corner: a distinct status and
+    # exit code, and the advice names the limit that stopped it
+    veh.write_text(CAR_TOML.replace('mode = "car"', 'mode = "car"\nreverse = false'))
     assert main(args[:-2] + ["--max-expansions", "1"]) == 3
     text = capsys.readouterr().out
-    assert "not-found-within-limits" in text and "small-time locally controllable" in text
+    assert "not-found-within-limits" in text and "cannot reverse" in text and "--max-expansions" in text
     assert main(args[:-2] + ["--time-limit", "0"]) == 2

@@ -50,9 +50,10 @@ import numpy as np
 import shapely
 from scipy import ndimage
 
+from floorfit.cspace.headings import arc_deg, wrap_deg
+from floorfit.cspace.raster import fill_polygons
 from floorfit.cspace.slices import SliceSet
 from floorfit.errors import InputError
-from floorfit.cspace.headings import arc_deg, rotation_displacement_m, wrap_deg
 from floorfit.motion import (
     OccupancyGrid,
     Segment,
@@ -62,12 +63,18 @@ from floorfit.motion import (
     merge_segments,
     plan_car_path,
     reeds_shepp_words,
-    rotate_and_drive,
     sample,
     total_length,
 )
 from floorfit.motion._words import word_segments
-from floorfit.cspace.raster import fill_polygons
+from floorfit.motion.subdivision import (
+    differential_steer,
+    redo,
+    reeds_shepp_steer,
+    shortcut_car,
+    shortcut_differential,
+    subdivide,
+)
 from floorfit.vehicles.rigid import Vehicle
 
 __all__ = [
@@ -75,6 +82,7 @@ __all__ = [
     "NOT_FOUND",
     "DriveLimits",
     "DrivePlan",
+    "ExactSliceCheck",
     "SliceMotionCheck",
     "chord_error_m",
     "drive_tolerance_m",
@@ -97,6 +105,8 @@ SHORTCUT_MAX_SEGMENTS = 40
 DEFAULT_XY_RESOLUTION_M = 0.25
 #: The heuristic grid of the car search has at most this many cells (its cell grows on big sites).
 GRID_MAX_CELLS = 250_000
+#: Tilts (degrees) the differential two-drive manoeuvres try before those of the heading cells.
+WIDE_TILTS_DEG = (45.0, 20.0, 10.0, 5.0)
 
 
 @dataclass(frozen=True)
@@ -123,7 +133,14 @@ class DriveLimits:
     heading_bins : int
         Heading cells of the car search per full turn.
     max_checks : int
-        Poses the differential conversion may check.
+        Poses the sampled conversions may check.
+    max_split_depth : int
+        Subdivision: how often one step of the holonomic route may be halved.
+    max_steering_checks : int
+        Subdivision: steered pieces that may be checked.
+    first_search_s : float
+        Car with reverse: seconds the hybrid A* search gets before the subdivision of the
+        holonomic route takes over (it stays within ``time_limit_s``).
     reverse_cost_factor : float
         Car search: cost multiplier for distance driven in reverse (≥ 1; 1 = shortest path).
     direction_change_cost_m : float or None
@@ -149,6 +166,9 @@ class DriveLimits:
     reverse_cost_factor: float = 2.0
     direction_change_cost_m: float | None = None
     heuristic_weight: float = 1.5
+    max_split_depth: int = 18
+    max_steering_checks: int = 30_000
+    first_search_s: float = 1.5
 
     def __post_init__(self) -> None:
         for name in ("check_step_m", "check_step_deg", "path_step_m", "path_step_deg"):
@@ -186,19 +206,16 @@ def chord_error_m(radius_m: float | None, step_m: float) -> float:
 
 
 def drive_tolerance_m(slices: SliceSet, limits: DriveLimits, radius_m: float | None) -> float:
-    """Largest amount (m) by which the drive checks may have grown the vehicle (errs towards "not found").
+    """How much a returned drive path's guarantee grows the vehicle (m): the slices' own tolerance.
 
-    A pose at heading h is checked in the slice of every cell within ``check_step_deg/2`` of h,
-    whose heading lies up to ``max_turn + check_step_deg/2`` from h: the footprint turned that
-    far moves by at most ``2ρ·sin(Δ/2)``; each slice's own footprint is grown by at most
-    ``slices.tolerance_m``; and positions keep the check margin of :class:`SliceMotionCheck`
-    (half the check step plus the chord error of the path samples) from the slice boundary.
-    A motion whose footprint grown by this much stays clear of the obstacles passes the checks.
+    Every returned path passes :class:`ExactSliceCheck`: each of its poses (and the linear
+    interpolation of its samples) lies in the free space of its own heading cell, the same
+    guarantee as a holonomic route of the roadmap. The sampled checks of the car search
+    (:class:`SliceMotionCheck`) are stricter still; what they reject, the subdivision of the
+    holonomic route (checked exactly) can still find for a vehicle that may reverse.
+    ``limits`` and ``radius_m`` are accepted for compatibility; they add nothing.
     """
-    turn = float(np.max(slices.cells.max_turn)) + limits.check_step_deg / 2.0
-    margin = (0.5 * limits.check_step_m + chord_error_m(radius_m, limits.path_step_m) + 1e-9) \
-        / math.cos(math.pi / (4 * SliceMotionCheck._QUAD_SEGS))
-    return float(slices.tolerance_m) + rotation_displacement_m(slices.vehicle.radius_m, turn) + margin
+    return float(slices.tolerance_m)
 
 
 class SliceMotionCheck:
@@ -344,6 +361,151 @@ class SliceMotionCheck:
         return self.slices.are_free(poses_deg)
 
 
+class ExactSliceCheck:
+    """Exact test of drive segments against sound slices (local frame; segment poses in radians).
+
+    A motion is accepted when every pose of it lies in the free space of its own heading
+    cell, the same guarantee as the holonomic roadmap's, so it adds nothing to the slices'
+    tolerance:
+
+    - a rotation in place: its position lies in the free space of every cell that meets
+      the headings it sweeps (point in polygon);
+    - a straight drive: the segment is covered by a free-space component of its heading's cell;
+    - an arc: it is split at the cell boundaries and at the output samples (every
+      ``path_step_m`` / ``path_step_deg``, as :func:`floorfit.motion.sample` places them); each
+      piece must be covered by a free-space component of its cell as a polygon that contains
+      both the arc piece (between its chord and its two tangents) and the chord between the
+      output samples, so the linear interpolation of the returned samples is clear too.
+
+    ``free(segments) -> bool`` is the callback of :mod:`floorfit.motion.subdivision`.
+    """
+
+    def __init__(self, slices: SliceSet, path_step_m: float = 0.05, path_step_deg: float = 2.0):
+        if slices.bound != "sound":
+            raise ValueError("drive checks need sound slices")
+        self.slices = slices
+        self.path_step_m = float(path_step_m)
+        self.path_step_deg = float(path_step_deg)
+        cells = slices.cells
+        self._starts = cells.headings - cells.below
+        self._prepared: set[int] = set()
+        self.checks = 0
+
+    def _cell_of(self, h_deg) -> np.ndarray:
+        s0 = self._starts[0]
+        y = np.mod(np.asarray(h_deg, dtype=float) - s0, 360.0) + s0
+        idx = np.searchsorted(self._starts, y, side="right") - 1
+        return np.clip(idx, 0, len(self._starts) - 1)
+
+    def _comps(self, k: int):
+        comps = self.slices.components[k]
+        if k not in self._prepared:
+            shapely.prepare(comps)
+            self._prepared.add(k)
+        return comps
+
+    def _covered(self, k: int, geoms) -> bool:
+        """Every geometry of ``geoms`` covered by some free-space component of slice ``k``."""
+        geoms = np.atleast_1d(np.asarray(geoms, dtype=object))
+        comps = self._comps(k)
+        if not len(comps):
+            return False
+        i_g, i_c = self.slices.tree(k).query(geoms)
+        ok = np.zeros(len(geoms), dtype=bool)
+        if len(i_g):
+            hit = shapely.covers(comps[i_c], geoms[i_g])
+            ok[i_g[hit]] = True
+        return bool(ok.all())
+
+    def rotation_free(self, x: float, y: float, h0_deg: float, dh_deg: float) -> bool:
+        n = len(self._starts)
+        if abs(dh_deg) >= 360.0 - 1e-9:
+            ks = np.arange(n)
+        else:
+            lo, hi = (h0_deg, h0_deg + dh_deg) if dh_deg >= 0 else (h0_deg + dh_deg, h0_deg)
+            ia, ib = int(self._cell_of(lo)), int(self._cell_of(hi))
+            ks = np.mod(ia + np.arange(int(np.mod(ib - ia, n)) + 1), n)
+        pt = shapely.points(x, y)
+        for k in ks:
+            comps = self._comps(int(k))
+            if not len(comps):
+                return False
+            idx = self.slices.tree(int(k)).query(pt)
+            if not len(idx) or not shapely.intersects_xy(comps[idx], x, y).any():
+                return False
+        return True
+
+    def _arc_pieces(self, seg: Segment) -> list[tuple[int, object]]:
+        """(cell, polygon) pieces covering an arc and the chords between its output samples."""
+        from floorfit.motion.segments import poses_along
+        n = max(1, math.ceil(seg.length_m / self.path_step_m - 1e-9),
+                math.ceil(abs(seg.angle_deg) / self.path_step_deg - 1e-9))
+        h0 = math.degrees(seg.start[2])
+        dh = seg.angle_deg
+        # fractions where the heading crosses a cell boundary
+        lo, hi = sorted((h0, h0 + dh))
+        bounds = []
+        for s0 in self._starts:
+            for m in range(math.floor((lo - s0) / 360.0), math.ceil((hi - s0) / 360.0) + 1):
+                b = s0 + 360.0 * m
+                if lo < b < hi:
+                    bounds.append((b - h0) / dh)
+        cuts = np.unique(np.concatenate([np.arange(n + 1) / n, np.asarray(bounds, dtype=float)]))
+        cuts = cuts[(cuts >= 0) & (cuts <= 1)]
+        pts = poses_along(seg, cuts)
+        k_of = self._cell_of(np.degrees(poses_along(seg, 0.5 * (cuts[:-1] + cuts[1:]))[:, 2]))
+        sample_t = np.arange(n + 1) / n
+        samples = poses_along(seg, sample_t)
+        sign = seg.steer * seg.radius_m
+        x0, y0, hs = seg.start
+        cx, cy = x0 - sign * math.sin(hs), y0 + sign * math.cos(hs)
+        out = []
+        for i in range(len(cuts) - 1):
+            ta, tb = cuts[i], cuts[i + 1]
+            j = min(int(np.searchsorted(sample_t, ta, side="right")) - 1, n - 1)
+            t_s, t_e = sample_t[j], sample_t[j + 1]
+            pa, pb = samples[j, :2], samples[j + 1, :2]
+            ca = pa + (pb - pa) * (ta - t_s) / (t_e - t_s)      # chord points at the same fractions
+            cb = pa + (pb - pa) * (tb - t_s) / (t_e - t_s)
+            A, B = pts[i, :2], pts[i + 1, :2]
+            half = 0.5 * abs(math.radians(dh) * (tb - ta))
+            corners = [ca, cb, B, A]
+            if half >= 1e-9:      # the tangents at A and B meet at T, outside the arc
+                mid = 0.5 * (A + B)
+                v = mid - np.array([cx, cy])
+                norm = float(np.hypot(*v))
+                if norm > 0:
+                    corners.append(np.array([cx, cy]) + v / norm * (seg.radius_m / math.cos(half)))
+            # the convex hull contains the arc piece and the chord piece (a polygon, a line or a point)
+            geom = shapely.convex_hull(shapely.multipoints(np.asarray(corners)))
+            out.append((int(k_of[i]), geom))
+        return out
+
+    def segment_free(self, seg: Segment) -> bool:
+        x, y, h = seg.start
+        h_deg = math.degrees(h)
+        if seg.kind == "rotate":
+            return self.rotation_free(x, y, h_deg, seg.angle_deg)
+        if seg.kind == "straight":
+            k = int(self._cell_of(h_deg))
+            if seg.length_m <= 1e-12:
+                return self.rotation_free(x, y, h_deg, 0.0)
+            return self._covered(k, shapely.linestrings([seg.start[:2], seg.end[:2]]))
+        by_cell: dict[int, list] = {}
+        for k, g in self._arc_pieces(seg):
+            by_cell.setdefault(k, []).append(g)
+        return all(self._covered(k, gs) for k, gs in by_cell.items())
+
+    def free(self, segments) -> bool:
+        """True when every segment (poses in radians, local frame) is clear."""
+        self.checks += 1
+        return all(self.segment_free(s) for s in segments)
+
+    def samples_inside(self, poses_deg) -> np.ndarray:
+        """True where each pose lies in its own slice's free space: a consistency check."""
+        return self.slices.are_free(poses_deg)
+
+
 @dataclass
 class DrivePlan:
     """A drivable motion (local frame) or the reason none was found.
@@ -362,6 +524,11 @@ class DrivePlan:
     poses_checked: int = 0
     goal_error_m: float = 0.0
     goal_error_deg: float = 0.0
+    #: the limit that stopped the search (a DriveLimits field name), "" when none did
+    limit: str = ""
+    #: subdivision stopped by a limit: the step of the holonomic route it was following
+    #: (two local poses x m, y m, heading deg)
+    failed_step: tuple | None = None
 
     @property
     def found(self) -> bool:
@@ -441,35 +608,113 @@ def finish_plan(plan: DrivePlan, check: SliceMotionCheck, limits: DriveLimits, s
     return plan
 
 
+def cell_tilts_rad(slices: SliceSet) -> list[float]:
+    """Heading tilts (radians) for the two-drive manoeuvres of a differential base: a few wide ones
+    and just under the half-width of every distinct heading cell, so that a base at a slice
+    heading can tilt without leaving its cell (see :mod:`floorfit.motion.subdivision`)."""
+    cells = slices.cells
+    half = np.minimum(cells.below, cells.above)
+    own = np.unique(np.round(half[half > 1e-9] * 0.95, 9))
+    wide = np.array(WIDE_TILTS_DEG)
+    return [math.radians(float(d)) for d in np.unique(np.concatenate([wide, own]))[::-1]]
+
+
+def _limit_reason(limit: str, detail: str) -> str:
+    return f"{detail} ({limit})"
+
+
 def plan_differential(slices: SliceSet, holonomic_local, *, reverse: bool,
-                      limits: DriveLimits = DriveLimits(), check: SliceMotionCheck | None = None) -> DrivePlan:
+                      limits: DriveLimits = DriveLimits(), check=None, deadline: float | None = None) -> DrivePlan:
     """Rotate-and-drive path along a holonomic path (local frame, (N, 3) [x m, y m, heading deg]).
 
-    The holonomic path (from :func:`floorfit.motion.route_query.route_in_slices`) is converted by
-    :func:`floorfit.motion.rotate_and_drive`: rotations only where the checks find the
-    rotation free, hops to the farthest waypoint first (few rotations). Status
-    ``"found"`` or ``"not-found-within-limits"``. ``check``: a :class:`SliceMotionCheck`
-    of these slices to share between calls (default: a new one for ``limits``).
+    Subdivision of the holonomic route (from :func:`floorfit.motion.route_query.route_in_slices`)
+    with rotate–drive–rotate and two-drive steering (:mod:`floorfit.motion.subdivision`),
+    checked exactly against the slices (:class:`ExactSliceCheck`), then shortcut to fewer
+    rotations and changes of direction. Status ``"found"`` or ``"not-found-within-limits"``
+    (the reason names the limit reached: ``max_split_depth``, ``max_steering_checks`` or
+    ``time_limit_s``). ``check``: an :class:`ExactSliceCheck` of these slices to share.
     """
     t0 = time.perf_counter()
     way = np.array(holonomic_local, dtype=float).reshape(-1, 3)
     start, goal = tuple(way[0]), tuple(way[-1])
-    check = check or SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg)
-    before = check.poses_checked
+    exact = check if isinstance(check, ExactSliceCheck) else ExactSliceCheck(slices, limits.path_step_m,
+                                                                             limits.path_step_deg)
+    if deadline is None and limits.time_limit_s is not None:
+        deadline = t0 + limits.time_limit_s
     rad = way.copy()
     rad[:, 2] = np.radians(rad[:, 2])
-    segs = rotate_and_drive(rad, reverse=reverse, is_free=check.is_free, step_m=limits.check_step_m,
-                            step_deg=limits.check_step_deg, max_checks=limits.max_checks)
-    if segs is not None and not reverse and any(sg.direction == "reverse" for sg in segs):
+    res = subdivide(rad, steer=differential_steer(reverse, cell_tilts_rad(slices)), free=exact.free,
+                    max_depth=limits.max_split_depth, max_checks=limits.max_steering_checks, deadline=deadline)
+    if res.segments is None:
+        how = "forward only: " if not reverse else ""
+        name = {"max_depth": "max_split_depth", "max_checks": "max_steering_checks"}.get(res.limit, res.limit)
+        step = None
+        if res.failed_step is not None:
+            step = tuple((p[0], p[1], float(wrap_deg(math.degrees(p[2])))) for p in res.failed_step)
+        return DrivePlan(NOT_FOUND, reason=f"{how}no rotate-and-drive path along the holonomic route: "
+                         + _limit_reason(name, res.reason), elapsed_s=time.perf_counter() - t0,
+                         limit=name, failed_step=step)
+    segs = shortcut_differential(res.segments, free=exact.free, reverse=reverse, deadline=deadline)
+    if not reverse and any(sg.direction == "reverse" for sg in segs):
         raise RuntimeError("internal error: a forward-only conversion drove in reverse")
-    if segs is None:
-        how = "forward only, " if not reverse else ""
-        return DrivePlan(NOT_FOUND, reason=f"no rotate-and-drive path ({how}following the holonomic route) "
-                         f"was found within the limits", elapsed_s=time.perf_counter() - t0,
-                         poses_checked=check.poses_checked - before)
-    plan = DrivePlan(FOUND, segments=segs, reason="rotate-and-drive along the holonomic route",
-                     elapsed_s=time.perf_counter() - t0, poses_checked=check.poses_checked - before)
-    return finish_plan(plan, check, limits, start, goal)
+    plan = DrivePlan(FOUND, segments=segs, reason="rotate-and-drive along the holonomic route (subdivision, "
+                     f"{res.depth} halvings at most), shortened", elapsed_s=time.perf_counter() - t0)
+    return finish_plan(plan, exact, limits, start, goal)
+
+
+def plan_car_subdivision(slices: SliceSet, vehicle: Vehicle, holonomic_local, *, limits: DriveLimits = DriveLimits(),
+                         check: ExactSliceCheck | None = None, deadline: float | None = None,
+                         differential=None) -> DrivePlan:
+    """Car path for a car that may reverse, complete relative to the holonomic analysis up to the limits.
+
+    The holonomic route is first made into rotations in place and straight drives
+    (:func:`plan_differential`, or ``differential(deadline) -> DrivePlan`` when given: the
+    straights are car moves already); each rotation in place
+    is then replaced by Reeds–Shepp pieces, splitting it in halves where they collide
+    (Laumond et al. 1994: Reeds–Shepp curves have the topological property, and a short
+    rotation's curves stay near its point); finally Reeds–Shepp shortcuts
+    (:func:`floorfit.motion.subdivision.shortcut_car`) remove most of the manoeuvring. Status
+    ``"not-found-within-limits"`` only when ``max_split_depth``, ``max_steering_checks`` or
+    ``time_limit_s`` was reached (named in the reason).
+    """
+    t0 = time.perf_counter()
+    radius = float(vehicle.min_turn_radius_m)
+    way = np.array(holonomic_local, dtype=float).reshape(-1, 3)
+    start, goal = tuple(way[0]), tuple(way[-1])
+    exact = check or ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
+    if differential is not None:
+        diff = differential(deadline)
+    else:
+        diff = plan_differential(slices, way, reverse=True, limits=limits, check=exact, deadline=deadline)
+    if not diff.found:
+        diff.reason = diff.reason.replace("rotate-and-drive path", "path of straights and turns")
+        return diff
+    steer = reeds_shepp_steer(radius)
+    out: list[Segment] = []
+    pose = diff.segments[0].start
+    depth = 0
+    for seg in diff.segments:
+        if seg.kind != "rotate":
+            out.append(redo(seg, pose))
+            pose = out[-1].end
+            continue
+        target = (pose[0], pose[1], pose[2] + math.radians(seg.angle_deg))
+        res = subdivide([pose, target], steer=steer, free=exact.free, max_depth=limits.max_split_depth,
+                        max_checks=limits.max_steering_checks, deadline=deadline)
+        if res.segments is None:
+            name = {"max_depth": "max_split_depth", "max_checks": "max_steering_checks"}.get(res.limit, res.limit)
+            return DrivePlan(NOT_FOUND, reason=f"no Reeds–Shepp manoeuvre replaces the turn in place at "
+                             f"({pose[0]:.2f}, {pose[1]:.2f}): " + _limit_reason(name, res.reason),
+                             elapsed_s=time.perf_counter() - t0, limit=name)
+        depth = max(depth, res.depth)
+        out += res.segments
+        pose = out[-1].end
+    segs = shortcut_car(out, free=exact.free, radius_m=radius, reverse_factor=limits.reverse_cost_factor,
+                        change_cost=limits.direction_change_cost_m, deadline=deadline)
+    plan = DrivePlan(FOUND, segments=segs, reason=f"straights of the holonomic route with Reeds–Shepp manoeuvres "
+                     f"for its turns (subdivision, {depth} halvings at most), shortened",
+                     elapsed_s=time.perf_counter() - t0)
+    return finish_plan(plan, exact, limits, start, goal)
 
 
 def reference_grid(slices: SliceSet, cell_m: float) -> OccupancyGrid:
@@ -514,7 +759,10 @@ def shortcut_car_path(segments: list[Segment], *, radius_m: float, reverse: bool
     if len(segs) < 2 or len(segs) > SHORTCUT_MAX_SEGMENTS:
         return segs
     change = 2.0 * radius_m if direction_change_cost_m is None else float(direction_change_cost_m)
-    cost = lambda run: _path_cost(run, reverse_cost_factor, change)
+
+    def cost(run):
+        return _path_cost(run, reverse_cost_factor, change)
+
     words_of = reeds_shepp_words if reverse else dubins_words
     poses = [segs[0].start] + [sg.end for sg in segs]
     n = len(segs)
@@ -547,23 +795,70 @@ def shortcut_car_path(segments: list[Segment], *, radius_m: float, reverse: bool
     return merge_segments(out)
 
 
+def _search_limit(reason: str) -> str:
+    """The DriveLimits field named in a hybrid A* reason, or "" when the search ran out of cells."""
+    for name in ("max_expansions", "time_limit_s"):
+        if f"({name})" in reason:
+            return name
+    return ""
+
+
 def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, reverse: bool | None = None,
              limits: DriveLimits = DriveLimits(), grid: OccupancyGrid | None = None,
-             check: SliceMotionCheck | None = None) -> DrivePlan:
+             check: SliceMotionCheck | None = None, holonomic_local=None,
+             exact: ExactSliceCheck | None = None, differential=None) -> DrivePlan:
     """Car path (arcs at ``vehicle.min_turn_radius_m`` and straights) between local poses
-    (x m, y m, heading deg) by hybrid A* (:func:`floorfit.motion.plan_car_path`).
+    (x m, y m, heading deg).
+
+    First hybrid A* (:func:`floorfit.motion.plan_car_path`): with reverse and a holonomic route
+    ``holonomic_local`` given, for at most ``limits.first_search_s``; then, for a car that may
+    reverse, the Reeds–Shepp subdivision of the holonomic route (:func:`plan_car_subdivision`;
+    ``differential(deadline)`` may give its straights-and-turns plan, see there),
+    which is complete relative to the holonomic analysis. Found paths are shortened with
+    Reeds–Shepp shortcuts checked exactly (:class:`ExactSliceCheck`).
 
     ``reverse`` defaults to ``vehicle.reverse``; with it the completions are Reeds–Shepp
     curves, without it Dubins curves. ``grid``: the 2-D heuristic (default
     :func:`reference_grid` at a quarter of the turning radius, at least 0.1 m).
     ``check``: a :class:`SliceMotionCheck` of these slices to share between calls (its
-    steps must be those of ``limits`` and its extra margin the chord error of the path).
+    steps must be those of ``limits`` and its extra margin the chord error of the path);
+    ``exact``: an :class:`ExactSliceCheck` to share.
     """
     radius = vehicle.min_turn_radius_m
     if radius is None or not radius > 0:
         raise InputError(f"vehicle '{vehicle.name}' has no min_turn_radius; a car-like vehicle needs one",
                          vehicle.source, "motion.min_turn_radius")
     rev = vehicle.reverse if reverse is None else bool(reverse)
+    t0 = time.perf_counter()
+    deadline = None if limits.time_limit_s is None else t0 + limits.time_limit_s
+    fallback = rev and (holonomic_local is not None or differential is not None)
+    first_limit = limits.time_limit_s
+    if fallback:
+        first_limit = limits.first_search_s if first_limit is None else min(first_limit, limits.first_search_s)
+    exact = exact or ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
+    plan = _plan_car_search(slices, vehicle, start_local, goal_local, rev, limits, grid, check, first_limit, exact,
+                            deadline)
+    if plan.found or not fallback:
+        if not plan.found:
+            plan.limit = _search_limit(plan.reason)
+        plan.elapsed_s = time.perf_counter() - t0
+        return plan
+    way = holonomic_local if holonomic_local is not None else [start_local, goal_local]
+    sub = plan_car_subdivision(slices, vehicle, way, limits=limits, check=exact, deadline=deadline,
+                               differential=differential)
+    sub.expansions = plan.expansions
+    sub.poses_checked = plan.poses_checked
+    searched = "hybrid A* " + (plan.reason or "found nothing")
+    if _search_limit(plan.reason) == "time_limit_s" and first_limit != limits.time_limit_s:
+        searched = f"hybrid A* stopped after {limits.first_search_s:g} s (first_search_s)"
+    sub.reason = f"{sub.reason}; {searched}"
+    sub.elapsed_s = time.perf_counter() - t0
+    return sub
+
+
+def _plan_car_search(slices, vehicle, start_local, goal_local, rev, limits, grid, check, time_limit_s, exact,
+                     deadline) -> DrivePlan:
+    radius = vehicle.min_turn_radius_m
     t0 = time.perf_counter()
     check = check or SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg,
                                       extra_margin_m=chord_error_m(radius, limits.path_step_m))
@@ -583,19 +878,28 @@ def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, rev
                            bounds=slices.domain.bounds,
                            goal_tolerance=(limits.goal_tolerance_m, math.radians(limits.goal_tolerance_deg)),
                            xy_resolution=res, heading_bins=limits.heading_bins,
-                           max_expansions=limits.max_expansions, time_limit_s=limits.time_limit_s,
-                           heuristic_grid=lambda xy: weight * grid_h(xy), step_m=limits.check_step_m, step_deg=limits.check_step_deg,
-                           reverse_cost_factor=limits.reverse_cost_factor,
+                           max_expansions=limits.max_expansions, time_limit_s=time_limit_s,
+                           heuristic_grid=lambda xy: weight * grid_h(xy), step_m=limits.check_step_m,
+                           step_deg=limits.check_step_deg, reverse_cost_factor=limits.reverse_cost_factor,
                            direction_change_cost_m=limits.direction_change_cost_m)
     plan = DrivePlan(FOUND if result.status == "found" else NOT_FOUND, segments=list(result.segments),
                      reason=result.reason, expansions=result.expansions,
                      elapsed_s=time.perf_counter() - t0, poses_checked=check.poses_checked - before)
     if not plan.found:
         return plan
-    plan.segments = shortcut_car_path(plan.segments, radius_m=radius, reverse=rev, check=check,
-                                      step_m=limits.check_step_m, step_deg=limits.check_step_deg,
-                                      reverse_cost_factor=limits.reverse_cost_factor,
-                                      direction_change_cost_m=limits.direction_change_cost_m)
+    segs = plan.segments
+    if rev:
+        segs = shortcut_car(segs, free=exact.free, radius_m=radius, reverse_factor=limits.reverse_cost_factor,
+                            change_cost=limits.direction_change_cost_m, deadline=deadline)
+    else:
+        segs = shortcut_car_path(segs, radius_m=radius, reverse=rev, check=check,
+                                 step_m=limits.check_step_m, step_deg=limits.check_step_deg,
+                                 reverse_cost_factor=limits.reverse_cost_factor,
+                                 direction_change_cost_m=limits.direction_change_cost_m)
+    if not exact.free(segs):       # the sampled checks are sound, so this does not happen
+        return DrivePlan(NOT_FOUND, reason="internal: a searched path failed the exact check",
+                         expansions=result.expansions, elapsed_s=time.perf_counter() - t0)
+    plan.segments = segs
     plan.elapsed_s = time.perf_counter() - t0
     plan.poses_checked = check.poses_checked - before
     return finish_plan(plan, check, limits, start_local, goal_local)

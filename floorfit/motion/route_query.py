@@ -39,6 +39,7 @@ from floorfit.errors import InputError
 from floorfit.motion.drivable import (
     NOT_FOUND,
     DriveLimits,
+    ExactSliceCheck,
     chord_error_m,
     drive_tolerance_m,
     plan_car,
@@ -290,7 +291,7 @@ def _closest_approach(slices: SliceSet, G: nx.Graph, start_node, goal_local) -> 
             "distance_to_goal_m": round(float(d), 4)}
 
 
-def find_route(plan: Plan, vehicle: Vehicle, start, goal, *, heading_step_deg: float | None = None,
+def find_route(plan: Plan, vehicle: Vehicle, start, goal, *, heading_step_deg: float | None = None,  # noqa: C901 (one linear sequence of status cases)
                workers: int | None = 1, slices: SliceSet | None = None, roadmap: nx.Graph | None = None,
                check_optimistic: bool = True, limits: DriveLimits | None = None) -> RouteResult:
     """Find a collision-free motion from ``start`` to ``goal`` (drawing-frame poses, metres/degrees).
@@ -378,119 +379,103 @@ def _controllable(vehicle: Vehicle) -> bool:
 ROUTE_CLEARANCE_MARGINS = 3.0
 
 
-#: Escape and approach drives tried when a differential base cannot follow the route from its
-#: start (or into its goal) directly: these multiples of the vehicle length, straight along the heading.
-ESCAPE_LENGTHS = (0.5, 1.0, 2.0)
-#: At most this many escape/approach combinations are tried.
-MAX_ESCAPE_TRIES = 12
-#: An escape whose path has at most this many segments is taken at once; otherwise the tries
-#: go on and the path with the fewest segments wins.
-ESCAPE_GOOD_SEGMENTS = 12
-#: Pose-check budget of each retried conversion.
-ESCAPE_MAX_CHECKS = 300_000
+#: Holonomic routes tried for a differential conversion: where one needs too many manoeuvres
+#: inside a roadmap cell, the next route avoids that cell.
+ROUTE_ATTEMPTS = 4
+#: Share of ``max_steering_checks`` each route but the last full try gets.
+EARLY_CHECKS_SHARE = 0.1
 
 
-def _along(pose_deg, d: float) -> tuple[float, float, float]:
-    h = math.radians(pose_deg[2])
-    return (pose_deg[0] + d * math.cos(h), pose_deg[1] + d * math.sin(h), float(pose_deg[2]))
+def _convert(slices, G, s_loc, g_loc, reverse, limits, check, clearance, deadline):
+    """Subdivision along the roomy route; where it stops at a limit inside a roadmap cell, along the
+    route that avoids that cell (up to :data:`ROUTE_ATTEMPTS` routes, the first ones on a small
+    budget); finally the first route with the whole budget."""
+    from dataclasses import replace
 
-
-def _convert(slices, G, way_fallback, s_loc, g_loc, reverse, limits, check, clearance):
-    """rotate-and-drive along the roomy route, then along the plain one."""
-    tries = []
-    st, roomy, _ = route_in_slices(slices, G, s_loc, g_loc, clearance_m=clearance)
-    if st == "reachable":
-        tries.append(roomy)
-    if way_fallback is None:
-        st, way_fallback, _ = route_in_slices(slices, G, s_loc, g_loc)
-        way_fallback = way_fallback if st == "reachable" else None
-    if way_fallback is not None:
-        tries.append(way_fallback)
+    early = replace(limits, max_steering_checks=max(500, int(limits.max_steering_checks * EARLY_CHECKS_SHARE)))
+    s_node, g_node = slices.locate(*s_loc), slices.locate(*g_loc)
+    removed: list = []
+    cut: list = []
+    first_way = None
     dp = None
-    for way in tries:
-        dp = plan_differential(slices, way, reverse=reverse, limits=limits, check=check)
-        if dp.found:
+    for _ in range(ROUTE_ATTEMPTS):
+        H = nx.restricted_view(G, removed, cut) if removed or cut else G
+        st, way, info = route_in_slices(slices, H, s_loc, g_loc, clearance_m=clearance)
+        if st != "reachable":
             break
-    return dp
+        first_way = way if first_way is None else first_way
+        dp = plan_differential(slices, way, reverse=reverse, limits=early, check=check, deadline=deadline)
+        if dp.found or dp.limit == "time_limit_s" or dp.failed_step is None:
+            return dp
+        a, b = dp.failed_step
+        node = slices.locate(0.5 * (a[0] + b[0]), 0.5 * (a[1] + b[1]), a[2])
+        nodes = info["nodes"]
+        if node is None or node in removed or node not in nodes:
+            break
+        if node not in (s_node, g_node):
+            removed.append(node)        # avoid the cell
+            continue
+        # the start's or goal's own cell: enter (leave) it by another rotation
+        i = nodes.index(node)
+        if node == g_node and i > 0:
+            cut.append((nodes[i - 1], node))
+        elif node == s_node and i + 1 < len(nodes):
+            cut.append((node, nodes[i + 1]))
+        else:
+            break
+    if first_way is None:
+        return dp
+    return plan_differential(slices, first_way, reverse=reverse, limits=limits, check=check, deadline=deadline)
 
 
 def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray | None, s_loc, g_loc,
-                      *, reverse: bool, limits: DriveLimits, check=None):
+                      *, reverse: bool, limits: DriveLimits, check=None, deadline: float | None = None):
     """Rotate-and-drive plan for a differential base (local frame; poses in degrees).
 
-    Follows the holonomic route recomputed with a clearance of a few check margins
-    (room to deviate from it); if that fails, the plain holonomic route
-    ``holonomic_local`` (when given). If neither works (typically a start or goal beside a
-    wall where the route slides sideways and the base cannot turn), it tries driving
-    straight out of the start along its heading and straight into the goal
-    (:data:`ESCAPE_LENGTHS` vehicle lengths, forward and, with ``reverse``, backward) and
-    converting the route between those poses. Returns a :class:`floorfit.motion.drivable.DrivePlan`.
-    ``check``: a shared :class:`floorfit.motion.drivable.SliceMotionCheck` (optional).
+    Subdivision of the holonomic route recomputed with a clearance of a few centimetres
+    (room for the manoeuvres of :mod:`floorfit.motion.subdivision`), trying routes that avoid
+    a roadmap cell where the manoeuvres became too many (:func:`_convert`).
+    ``holonomic_local`` is accepted for compatibility (the route is recomputed). Returns a
+    :class:`floorfit.motion.drivable.DrivePlan`. ``check``: a shared
+    :class:`floorfit.motion.drivable.ExactSliceCheck` (optional).
     """
-    from dataclasses import replace
+    import time
 
-    from floorfit.motion import merge_segments, sample, straight
-    from floorfit.motion.drivable import FOUND, DrivePlan, SliceMotionCheck, finish_plan
+    from floorfit.motion.drivable import ExactSliceCheck
 
-    check = check or SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg)
+    t0 = time.perf_counter()
+    if deadline is None and limits.time_limit_s is not None:
+        deadline = t0 + limits.time_limit_s
+    if not isinstance(check, ExactSliceCheck):
+        check = ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
     clearance = ROUTE_CLEARANCE_MARGINS * 0.5 * limits.check_step_m
-    dp = _convert(slices, G, holonomic_local, s_loc, g_loc, reverse, limits, check, clearance)
-    if dp is None or dp.found:
-        return dp
-    length = slices.vehicle.length_m
-    signs = (1.0, -1.0) if reverse else (1.0,)
-    moves = [0.0] + [sg * f * length for f in ESCAPE_LENGTHS for sg in signs]
-    combos = sorted(((a, b) for a in moves for b in moves if a or b), key=lambda ab: abs(ab[0]) + abs(ab[1]))
-    retry = replace(limits, max_checks=min(limits.max_checks, ESCAPE_MAX_CHECKS))
+    dp = _convert(slices, G, s_loc, g_loc, reverse, limits, check, clearance, deadline)
+    if dp is not None:
+        dp.elapsed_s = time.perf_counter() - t0
+    return dp
 
-    def drive_free(pose_deg, d):
-        seg = straight((pose_deg[0], pose_deg[1], math.radians(pose_deg[2])), d)
-        return seg if bool(check.is_free(sample([seg], limits.check_step_m, limits.check_step_deg)).all()) else None
 
-    out_ok: dict = {}
-    in_ok: dict = {}
-    tried = 0
-    best = None
-    for a, b in combos:
-        if tried >= MAX_ESCAPE_TRIES:
-            break
-        if a not in out_ok:
-            out_ok[a] = drive_free(s_loc, a) if a else None
-        g2 = _along(g_loc, -b)
-        if b not in in_ok:
-            in_ok[b] = drive_free(g2, b) if b else None
-        if (a and out_ok[a] is None) or (b and in_ok[b] is None):
-            continue
-        tried += 1
-        s2 = _along(s_loc, a)
-        mid = _convert(slices, G, None, s2, g2, reverse, retry, check, clearance)
-        if mid is None or not mid.found:
-            continue
-        segs = ([out_ok[a]] if a else []) + list(mid.segments) + ([in_ok[b]] if b else [])
-        # the pieces meet at s2 / g2 up to rounding; rebuild the end drive from where the middle ended
-        if b:
-            end = segs[-2].end if len(segs) > 1 else segs[0].start
-            segs[-1] = straight(end, b)
-        segs = merge_segments(segs)
-        if best is None or len(segs) < len(best[0]):
-            best = (segs, a, b, mid)
-        if len(segs) <= ESCAPE_GOOD_SEGMENTS:
-            break
-    if best is None:
-        return dp
-    segs, a, b, mid = best
-    found = DrivePlan(FOUND, segments=segs,
-                      reason=f"rotate-and-drive along the holonomic route after driving {a:+.2f} m out of the "
-                             f"start and before driving {b:+.2f} m into the goal",
-                      elapsed_s=dp.elapsed_s + mid.elapsed_s, poses_checked=dp.poses_checked + mid.poses_checked)
-    return finish_plan(found, check, limits, s_loc, g_loc)
+#: What may help when a drive search stopped at a limit (by the DriveLimits field that stopped it).
+LIMIT_ADVICE = {
+    "time_limit_s": "a longer --time-limit may find it",
+    "max_expansions": "a larger --max-expansions may find it",
+    "max_split_depth": "the route passes through a place with almost no room to manoeuvre; "
+                       "a finer --heading-step may give the search more room",
+    "max_steering_checks": "the route needs very many small manoeuvres; a finer --heading-step may help",
+}
 
 
 def _drive(result: RouteResult, plan: Plan, vehicle: Vehicle, slices: SliceSet, G: nx.Graph,
            holonomic_local: np.ndarray, s_loc, g_loc, limits: DriveLimits) -> None:
     """Replace the holonomic answer in ``result`` by a drivable one (or not-found-within-limits)."""
     if vehicle.mode == "car":
-        dp = plan_car(slices, vehicle, s_loc, g_loc, limits=limits)
+        exact = ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
+
+        def straights_and_turns(deadline):
+            return differential_plan(slices, G, holonomic_local, s_loc, g_loc, reverse=True, limits=limits,
+                                     check=exact, deadline=deadline)
+
+        dp = plan_car(slices, vehicle, s_loc, g_loc, limits=limits, differential=straights_and_turns, exact=exact)
         radius = vehicle.min_turn_radius_m
     else:
         dp = differential_plan(slices, G, holonomic_local, s_loc, g_loc, reverse=vehicle.reverse, limits=limits)
@@ -513,13 +498,16 @@ def _drive(result: RouteResult, plan: Plan, vehicle: Vehicle, slices: SliceSet, 
         result.status = NOT_FOUND_WITHIN_LIMITS
         result.path = np.zeros((0, 3))
         result.length_m = result.rotation_deg = 0.0
+        result.search["limit"] = dp.limit or None
         result.notes.append(f"{vehicle.mode} search: {dp.reason}")
+        advice = LIMIT_ADVICE.get(dp.limit)
         if _controllable(vehicle):
             result.notes.append("the holonomic analysis connects the poses and this vehicle is small-time locally "
-                                "controllable, so a drivable path exists; raise the search limits to find it")
+                                "controllable, so a drivable path exists" + (f"; {advice}" if advice else ""))
         else:
             result.notes.append("the holonomic analysis connects the poses, but a vehicle that cannot reverse may "
-                                "still be unable to follow; no answer either way within the limits")
+                                "still be unable to follow; no answer either way within the limits"
+                                + (f"; {advice}" if advice else ""))
         return
     drawing = dp.samples.copy()
     drawing[:, 0] += plan.origin[0]

@@ -1,0 +1,365 @@
+"""Complete drivable paths by subdivision of a holonomic path, then shortcuts.
+
+Laumond, Jacobs, Taïx and Murray, "A motion planner for nonholonomic mobile robots",
+IEEE Trans. Robotics and Automation 10(5), 1994: a vehicle that is small-time locally
+controllable can follow any collision-free holonomic path that keeps some clearance,
+given a *steering method with the topological property* (the steered path between two
+configurations stays in any neighbourhood of the first once the second is close enough).
+Replace each step of the holonomic path by the steered path; where that collides, split
+the step in halves and steer each half; the splitting ends because the holonomic path
+has clearance.
+
+Steering methods here (poses (x m, y m, heading rad)):
+
+``differential_steer``
+    Rotations in place and straight drives. First rotate–drive–rotate (rotate to face
+    the target, drive, rotate to its heading; backwards too with ``reverse``), then, for
+    a translation at a fixed heading h, the two-drive manoeuvres with headings h ± β
+    (and h): the target offset is written as ``c1·u(h+β1) + c2·u(h+β2)``. These stay
+    within ``|c1| + |c2|``, proportional to the step, of the step's start and within β of
+    its heading: the topological property once β lies inside the heading range the free
+    space allows there. ``tilts`` lists the β to try (largest first; the caller passes the
+    half-widths of its heading cells so that the narrowest cell keeps a manoeuvre of
+    its own).
+``reeds_shepp_steer``
+    The cheapest Reeds–Shepp curves (shortest paths with reversing, which have the
+    topological property, Laumond et al. 1994).
+
+:func:`subdivide` applies a steering method along a holonomic path with a limit on the
+split depth and on the number of checks; :func:`shortcut_differential` and
+:func:`shortcut_car` then replace runs of the result by single hops (fewer rotations,
+fewer changes of direction). Every piece is checked with the caller's
+``free(segments) -> bool``.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from floorfit.motion._words import word_segments
+from floorfit.motion.poses import wrap_angle
+from floorfit.motion.reeds_shepp import reeds_shepp_words
+from floorfit.motion.segments import Segment, arc, direction_changes, merge_segments, rotate, straight
+
+__all__ = [
+    "SubdivisionResult",
+    "differential_steer",
+    "redo",
+    "reeds_shepp_steer",
+    "shortcut_car",
+    "shortcut_differential",
+    "subdivide",
+]
+
+_SAME = 1e-9
+Free = Callable[[list[Segment]], bool]
+Steer = Callable[[tuple, tuple], list[list[Segment]]]
+
+
+@dataclass
+class SubdivisionResult:
+    """Outcome of :func:`subdivide`: ``segments`` (None when a limit stopped it), the limit
+    reached (``"max_depth"``, ``"max_checks"``, ``"time_limit_s"``, or ``""``), a reason,
+    the number of checks and the deepest split used."""
+
+    segments: list[Segment] | None
+    limit: str
+    reason: str
+    checks: int
+    depth: int
+    #: the step (start pose, goal pose) being followed when a limit stopped it
+    failed_step: tuple | None = None
+
+
+class _Limit(Exception):
+    def __init__(self, which: str):
+        self.which = which
+
+
+# --- steering methods -------------------------------------------------------------------
+
+def _rotation_cost(segs: list[Segment]) -> float:
+    return sum(abs(math.radians(s.angle_deg)) for s in segs if s.kind == "rotate")
+
+
+def _rtr(a, b, reverse: bool) -> list[tuple[float, list[Segment]]]:
+    """Rotate to face ``b`` (or away from it, driving backwards), drive, rotate to b's heading."""
+    dx, dy = b[0] - a[0], b[1] - a[1]
+    dist = math.hypot(dx, dy)
+    towards = math.atan2(dy, dx)
+    out = []
+    for heading, drive, penalty in [(towards, dist, 0.0)] + ([(towards + math.pi, -dist, 1.0)] if reverse else []):
+        first = float(wrap_angle(heading - a[2]))
+        for t1 in (first, first - math.copysign(2 * math.pi, first)) if first else (0.0,):
+            spin = rotate(a, t1)
+            go = straight(spin.end, drive)
+            last = float(wrap_angle(b[2] - go.end[2]))
+            segs = [spin, go, rotate(go.end, last)]
+            out.append((abs(t1) + abs(last) + penalty, segs))
+    return out
+
+
+def _two_drives(a, b, reverse: bool, tilts: Sequence[float]) -> list[list[Segment]]:
+    """Manoeuvres for a translation at a's heading: drive at h+β1, then at h+β2 (β from ``tilts``)."""
+    h = a[2]
+    dx, dy = b[0] - a[0], b[1] - a[1]
+    out = []
+    for beta in tilts:
+        for b1, b2 in ((beta, -beta), (-beta, beta), (beta, 0.0), (0.0, beta), (-beta, 0.0), (0.0, -beta)):
+            u1 = (math.cos(h + b1), math.sin(h + b1))
+            u2 = (math.cos(h + b2), math.sin(h + b2))
+            det = u1[0] * u2[1] - u1[1] * u2[0]
+            if abs(det) < 1e-12:
+                continue
+            c1 = (dx * u2[1] - dy * u2[0]) / det
+            c2 = (u1[0] * dy - u1[1] * dx) / det
+            if not reverse and (c1 < -_SAME or c2 < -_SAME):
+                continue
+            segs = [rotate(a, b1)]
+            segs.append(straight(segs[-1].end, c1))
+            segs.append(rotate(segs[-1].end, b2 - b1))
+            segs.append(straight(segs[-1].end, c2))
+            segs.append(rotate(segs[-1].end, -b2))
+            out.append(segs)
+    return out
+
+
+def differential_steer(reverse: bool, tilts: Sequence[float]) -> Steer:
+    """Steering method of a differential base (see the module docstring); ``tilts`` in radians."""
+    tilts = sorted({float(t) for t in tilts if t > 0}, reverse=True)
+
+    def steer(a, b) -> list[list[Segment]]:
+        dx, dy = b[0] - a[0], b[1] - a[1]
+        dist = math.hypot(dx, dy)
+        dh = b[2] - a[2]
+        if dist <= _SAME:
+            other = dh - math.copysign(2 * math.pi, dh) if dh else 0.0
+            return [[rotate(a, dh)], [rotate(a, other)]] if dh else [[rotate(a, 0.0)]]
+        c, s = math.cos(a[2]), math.sin(a[2])
+        along, side = c * dx + s * dy, -s * dx + c * dy
+        cands: list[list[Segment]] = []
+        if abs(dh) <= _SAME and abs(side) <= _SAME * (1 + abs(along)) and (along > 0 or reverse):
+            cands.append([straight(a, along)])
+        cands += [segs for _, segs in sorted(_rtr(a, b, reverse), key=lambda item: item[0])]
+        if abs(dh) <= _SAME:
+            cands += _two_drives(a, b, reverse, tilts)
+        else:   # a turn and a translation at once: turn first, or translate first
+            spin = rotate(a, dh)
+            cands += [[spin] + rest for rest in _two_drives(spin.end, (b[0], b[1], spin.end[2]), reverse, tilts)]
+        return cands
+
+    return steer
+
+
+def reeds_shepp_steer(radius_m: float, words: int = 3) -> Steer:
+    """The ``words`` shortest Reeds–Shepp curves of radius ``radius_m`` (m)."""
+
+    def steer(a, b) -> list[list[Segment]]:
+        out = []
+        for word in reeds_shepp_words(a, b, radius_m)[:words]:
+            segs = word_segments(a, word, radius_m)
+            out.append(segs if segs else [straight(a, 0.0)])
+        return out
+
+    return steer
+
+
+# --- subdivision ------------------------------------------------------------------------
+
+def subdivide(waypoints, *, steer: Steer, free: Free, max_depth: int = 16, max_checks: int = 100_000,
+              deadline: float | None = None) -> SubdivisionResult:
+    """Steer along a holonomic path, splitting steps in halves where the steered path collides.
+
+    ``waypoints``: (N, 3) poses (x m, y m, heading rad) of a collision-free holonomic path
+    (linear in x, y and heading between waypoints, heading the shorter way round).
+    ``deadline``: a :func:`time.perf_counter` value after which it stops.
+    """
+    pts = np.array(waypoints, dtype=float).reshape(-1, 3)
+    pts[1:, 2] = pts[0, 2] + np.cumsum(wrap_angle(np.diff(pts[:, 2])))
+    state = {"checks": 0, "depth": 0}
+
+    def check(segs) -> bool:
+        state["checks"] += 1
+        if state["checks"] > max_checks:
+            raise _Limit("max_checks")
+        if deadline is not None and time.perf_counter() > deadline:
+            raise _Limit("time_limit_s")
+        return bool(free(segs))
+
+    def follow(a, b, depth) -> list[Segment]:
+        for cand in steer(a, b):
+            end = cand[-1].end
+            if math.hypot(end[0] - b[0], end[1] - b[1]) > 1e-6 or abs(end[2] - b[2]) > 1e-6:
+                continue
+            if check(cand):
+                return cand
+        if depth >= max_depth:
+            raise _Limit("max_depth")
+        state["depth"] = max(state["depth"], depth + 1)
+        mid = tuple(0.5 * (p + q) for p, q in zip(a, b))
+        first = follow(a, mid, depth + 1)
+        end = first[-1].end
+        return first + follow(end, (b[0], b[1], end[2] + (b[2] - mid[2])), depth + 1)
+
+    out: list[Segment] = []
+    pose = tuple(float(v) for v in pts[0])
+    target = pose
+    try:
+        for q in pts[1:]:
+            target = (float(q[0]), float(q[1]), pose[2] + float(wrap_angle(q[2] - pose[2])))
+            piece = follow(pose, target, 0)
+            out += piece
+            pose = piece[-1].end
+    except _Limit as lim:
+        what = {"max_depth": f"a step of the holonomic path still collided after {max_depth} halvings",
+                "max_checks": f"{max_checks} steering checks were used",
+                "time_limit_s": "the time limit was reached"}[lim.which]
+        return SubdivisionResult(None, lim.which, what, state["checks"], state["depth"], (pose, target))
+    return SubdivisionResult(merge_segments(out), "", "", state["checks"], state["depth"])
+
+
+# --- shortcuts ------------------------------------------------------------------------
+
+def redo(seg: Segment, pose) -> Segment:
+    """The same motion as ``seg`` driven from ``pose``."""
+    if seg.kind == "rotate":
+        return rotate(pose, math.radians(seg.angle_deg))
+    if seg.kind == "straight":
+        return straight(pose, seg.sign * seg.length_m)
+    return arc(pose, seg.sign * seg.length_m, seg.steer, seg.radius_m)
+
+
+def _targets(i: int, n: int) -> list[int]:
+    """Later boundaries to try from boundary ``i`` (of ``n``), farthest first: the next few, then doubling."""
+    js = set(range(i + 1, min(n, i + 8) + 1))
+    step = 8
+    while i + step < n:
+        js.add(i + step)
+        step *= 2
+    js.add(n)
+    return sorted(js, reverse=True)
+
+
+def shortcut_differential(segments: list[Segment], *, free: Free, reverse: bool,
+                          deadline: float | None = None) -> list[Segment]:
+    """Fewer rotations and changes of direction: from each pose, hop to the farthest later pose of
+    the path reachable by (rotate,) drive, where the base can also turn to that pose's heading.
+
+    A hop is kept only with that final turn free, so the original path can always be resumed
+    from its end; the result is never worse in segments than the input.
+    """
+    segs = merge_segments(segments)
+    if len(segs) < 2:
+        return segs
+    poses = [segs[0].start] + [s.end for s in segs]
+    n = len(segs)
+    out: list[Segment] = []
+    pose = poses[0]
+    last_dir = None
+    pending: list[Segment] = []      # turn from the arrival heading to the path's heading at poses[i]
+    i = 0
+    while i < n:
+        hop = None
+        if deadline is None or time.perf_counter() < deadline:
+            for j in _targets(i, n):
+                q = poses[j]
+                if math.hypot(q[0] - pose[0], q[1] - pose[1]) <= 1e-6:
+                    continue
+                options = []
+                for cost, cand in _rtr(pose, q, reverse):
+                    spin, go, sync = cand
+                    changes = 1.0 if last_dir is not None and go.direction != last_dir else 0.0
+                    options.append((cost + 2.0 * changes, [spin, go], sync))
+                for _, drive, sync in sorted(options, key=lambda item: item[0]):
+                    if free(drive) and free([sync]):
+                        hop = (j, drive, sync)
+                        break
+                if hop is not None:
+                    break
+        if hop is not None:
+            j, drive, sync = hop
+            out += drive
+            last_dir = drive[1].direction if drive[1].length_m > 0 else last_dir
+            pose = drive[-1].end
+            pending = [sync]
+            i = j
+            continue
+        out += pending
+        pending = []
+        new = redo(segs[i], pose)      # resume the original path (pose is its start up to rounding)
+        out.append(new)
+        if new.kind != "rotate" and new.length_m > 0:
+            last_dir = new.direction
+        pose = new.end
+        i += 1
+    out += pending
+    result = merge_segments(out)
+    before = (direction_changes(segs), _rotation_cost(segs), len(segs))
+    after = (direction_changes(result), _rotation_cost(result), len(result))
+    return result if after <= before or len(result) < len(segs) else segs
+
+
+def car_cost(segments: Sequence[Segment], reverse_factor: float, change_cost: float) -> float:
+    """Length (m), reverse distance times ``reverse_factor``, plus ``change_cost`` per change of direction."""
+    length = sum(s.length_m * (reverse_factor if s.direction == "reverse" else 1.0) for s in segments)
+    return length + change_cost * direction_changes(segments)
+
+
+def _car_shortcut_from(segs, poses, i, *, free, radius_m, reverse_factor, change, words):
+    """The farthest boundary j > i + 1 and the free, cheaper Reeds–Shepp curve from ``poses[i]`` to it."""
+    n = len(segs)
+    for j in _targets(i, n):
+        if j == i + 1:
+            return None
+        old = car_cost(segs[i:j], reverse_factor, change)
+        cands = []
+        for word in reeds_shepp_words(poses[i], poses[j], radius_m)[:8]:
+            new = word_segments(poses[i], word, radius_m)
+            c = car_cost(new, reverse_factor, change)
+            if new and c < old - 1e-9:
+                cands.append((c, new))
+        for _, new in sorted(cands, key=lambda item: item[0])[:words]:
+            end = new[-1].end
+            if math.hypot(end[0] - poses[j][0], end[1] - poses[j][1]) > 1e-6 or \
+                    abs(float(wrap_angle(end[2] - poses[j][2]))) > 1e-6:
+                continue
+            if free(new):
+                return j, new
+    return None
+
+
+def shortcut_car(segments: list[Segment], *, free: Free, radius_m: float, reverse_factor: float = 2.0,
+                 change_cost: float | None = None, words: int = 3, passes: int = 2,
+                 deadline: float | None = None) -> list[Segment]:
+    """Replace runs of a car path by one of the ``words`` cheapest Reeds–Shepp curves between their
+    end poses when that costs less (:func:`car_cost`) and is free; farthest first, ``passes`` times."""
+    change = 2.0 * radius_m if change_cost is None else float(change_cost)
+    segs = merge_segments(segments)
+    for _ in range(passes):
+        if len(segs) < 2:
+            break
+        poses = [segs[0].start] + [s.end for s in segs]
+        out: list[Segment] = []
+        i = 0
+        improved = False
+        while i < len(segs):
+            hop = None
+            if deadline is None or time.perf_counter() < deadline:
+                hop = _car_shortcut_from(segs, poses, i, free=free, radius_m=radius_m,
+                                         reverse_factor=reverse_factor, change=change, words=words)
+            if hop is not None:
+                i, new = hop
+                out += new
+                improved = True
+            else:
+                out.append(redo(segs[i], out[-1].end if out else segs[i].start))
+                i += 1
+        segs = merge_segments(out)
+        if not improved:
+            break
+    return segs
