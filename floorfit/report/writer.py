@@ -25,6 +25,7 @@ from __future__ import annotations
 import json
 import os
 import secrets
+import zipfile
 from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
@@ -41,6 +42,7 @@ OUTPUT_FILES: dict[str, str] = {
     "json": "findings.json",
     "csv": "findings.csv",
     "dxf": "overlay.dxf",
+    "bcf": "findings.bcf",          # building models (IFC) only: BCF 3.0 topics
     "pdf": "report.pdf",
 }
 #: Paper sizes of report.pdf (landscape pages).
@@ -85,6 +87,13 @@ def floorfit_wrote(path: str | os.PathLike) -> bool:
         return first == [",".join(CSV_COLUMNS)]
     if name == OUTPUT_FILES["dxf"]:
         return _DXF_SIGNATURE in _head(path)
+    if name == OUTPUT_FILES["bcf"]:
+        from floorfit.report.bcf import BCF_SIGNATURE
+        try:
+            with zipfile.ZipFile(path) as zf:
+                return zf.comment == BCF_SIGNATURE
+        except (OSError, zipfile.BadZipFile):
+            return False
     if name == OUTPUT_FILES["pdf"]:
         return _head(path, 5) == b"%PDF-" and _PDF_SIGNATURE in _tail(path)
     return False
@@ -203,6 +212,10 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
     if "dxf" in chosen:
         progress.stage("drawing overlay.dxf")
         contents["dxf"] = overlay_dxf(result)
+    if "bcf" in chosen:
+        from floorfit.report.bcf import findings_bcf
+        progress.stage("writing findings.bcf")
+        contents["bcf"] = findings_bcf(result)
     progress.stage("writing findings.json")
     contents["json"] = findings_json(result, [OUTPUT_FILES[f] for f in chosen])
     return contents
@@ -237,6 +250,9 @@ def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False
     if str(paper).lower() not in PAPER_SIZES:
         raise InputError(f"unknown paper {paper!r}; choose from {', '.join(PAPER_SIZES)}", str(out_dir), "paper")
     paper = str(paper).lower()
+    from floorfit.report.bcf import is_model_plan
+    if is_model_plan(result.plan) and "bcf" not in chosen:     # findings back into the model viewer
+        chosen.append("bcf")
     old_ours = _check_folder(out_dir, force)
     targets = {fmt: out_dir / OUTPUT_FILES[fmt] for fmt in chosen}
     _check_not_input(targets.values(), result.plan.source, out_dir)
