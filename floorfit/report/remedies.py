@@ -265,13 +265,7 @@ def _turn_room(f: Any, ctx: RemedyContext, stretch_local: Any | None) -> Remedy:
         return Remedy("turn-room", f"This vehicle never turns round (motion mode "
                       f"'{result.vehicle.mode}'); the stretch {_place(f)} can only be driven as it is.",
                       at=(f.x, f.y))
-    best = (ctx.clearance_at(lx, ly), lx, ly)
-    if stretch_local is not None and not stretch_local.is_empty:
-        pts = _sample_points(stretch_local, ctx.map_cell)
-        for px, py in pts:
-            c = ctx.clearance_at(px, py)
-            if c > best[0] + 1e-9:
-                best = (c, px, py)
+    best = _widest_spot(ctx, stretch_local, lx, ly)
     widest = 2.0 * best[0] if math.isfinite(best[0]) else None
     wx, wy = plan.to_drawing(best[1], best[2])
     change = max(need - widest, 0.0) if widest is not None else None
@@ -301,6 +295,27 @@ def _turn_room(f: Any, ctx: RemedyContext, stretch_local: Any | None) -> Remedy:
                  "along the floor.")
     return Remedy("turn-room", text, target_m=need, change_m=change, at=(wx, wy),
                   tolerance_m=ctx.map_cell, circles=circles, nearest_turn=nearest)
+
+
+def _widest_spot(ctx: RemedyContext, stretch: Any | None, lx: float, ly: float) -> tuple[float, float, float]:
+    """(clearance, x, y) of the largest clear circle centred in the stretch (local frame): the best
+    grid samples moved to the middle of the clear width through them."""
+    samples = [(ctx.clearance_at(lx, ly), lx, ly)]
+    if stretch is not None and not stretch.is_empty:
+        samples += [(ctx.clearance_at(px, py), px, py) for px, py in _sample_points(stretch, ctx.map_cell)]
+    samples.sort(key=lambda t: -t[0])
+    best = samples[0]
+    for _c, px, py in samples[:8]:
+        w, q1, q2 = ctx.width_at(px, py)
+        if q1 is None or q2 is None or not math.isfinite(w):
+            continue
+        mx, my = 0.5 * (q1[0] + q2[0]), 0.5 * (q1[1] + q2[1])
+        if stretch is not None and not stretch.buffer(ctx.map_cell).contains(shapely.Point(mx, my)):
+            continue
+        c = ctx.clearance_at(mx, my)
+        if c > best[0] + 1e-9:
+            best = (c, mx, my)
+    return best
 
 
 def _sample_points(geom: Any, cell: float, limit: int = 4000) -> list[tuple[float, float]]:
@@ -338,18 +353,26 @@ def _circle_places(stretch: Any | None, ctx: RemedyContext, need: float,
     cover = reach + max(need / 2.0 - rho - ctx.curve - ctx.map_cell, 0.0)
     pts = np.asarray(_sample_points(stretch, ctx.map_cell))
     left = np.ones(len(pts), bool)
-    centres = []
-    # greedy cover: start at the widest spot, then the farthest uncovered point each time
+    centres: list[np.ndarray] = []
+    # greedy cover: the first circle at the widest spot; then, for the uncovered point nearest
+    # the covered part, the sample within reach of it that covers most of what is left
     cur = np.asarray(widest, dtype=float)
-    for _ in range(50):
+    for _ in range(60):
         centres.append(cur)
         left &= np.hypot(pts[:, 0] - cur[0], pts[:, 1] - cur[1]) > cover
         if not left.any():
             break
         rest = pts[left]
         d = np.min(np.stack([np.hypot(rest[:, 0] - c[0], rest[:, 1] - c[1]) for c in centres]), axis=0)
-        # the uncovered point nearest the covered part: circles spread along the stretch
-        cur = rest[int(np.argmin(d))]
+        u = rest[int(np.argmin(d))]
+        cand = pts[np.hypot(pts[:, 0] - u[0], pts[:, 1] - u[1]) <= cover]
+        gain = [int(np.sum(np.hypot(rest[:, 0] - c[0], rest[:, 1] - c[1]) <= cover)) for c in cand]
+        cur = cand[int(np.argmax(gain))] if len(cand) else u
+        w, q1, q2 = ctx.width_at(float(cur[0]), float(cur[1]))      # onto the middle of the clear width
+        if q1 is not None and q2 is not None and math.isfinite(w):
+            mid = 0.5 * (np.asarray(q1, float) + np.asarray(q2, float))
+            if np.hypot(*(mid - cur)) <= 0.5 * w and stretch.buffer(ctx.map_cell).contains(shapely.Point(*mid)):
+                cur = mid
     return [(*plan.to_drawing(float(c[0]), float(c[1])), need) for c in centres]
 
 

@@ -155,7 +155,8 @@ class _Obstacles:
         # the entity each obstacle came from: DXF handles, or element ids of a building model
         handles: list[str | None] = [None] * len(self.geoms)
         self.id_name = "handle"
-        for w_key, s_key, name in (("wall_ids", "solid_ids", "element id"), ("wall_handles", "solid_handles", "handle")):
+        sources = (("wall_ids", "solid_ids", "element id"), ("wall_handles", "solid_handles", "handle"))
+        for w_key, s_key, name in sources:
             wh, sh = getattr(plan, w_key, None), getattr(plan, s_key, None)
             if wh is not None and len(wh) == len(walls):
                 handles[:len(walls)] = [None if h is None or h == "" else str(h) for h in wh]
@@ -565,8 +566,8 @@ def _draw_dimension(ax: Any, dim: Dimension, scale: int) -> None:
             parse_math=False)
 
 
-def draw_closeup(ax: Any, result: Any, sheet: Sheet, viewport_mm: tuple[float, float] = VIEWPORT_MM,
-                 obstacles: Any = None) -> None:
+def draw_closeup(ax: Any, result: Any, sheet: Sheet,  # noqa: C901  (one drawing, layer by layer, in order)
+                 viewport_mm: tuple[float, float] = VIEWPORT_MM, obstacles: Any = None) -> None:
     """Draw the close-up of ``sheet`` into ``ax``; the axes must be ``viewport_mm`` on paper, so that
     the drawing is at the sheet's scale."""
     plan = result.plan
