@@ -44,7 +44,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import shapely
@@ -138,9 +138,10 @@ class DriveLimits:
         Subdivision: how often one step of the holonomic route may be halved.
     max_steering_checks : int
         Subdivision: steered pieces that may be checked.
-    first_search_s : float
-        Car with reverse: seconds the hybrid A* search gets before the subdivision of the
-        holonomic route takes over (it stays within ``time_limit_s``).
+    first_search_expansions : int
+        Car with reverse: expansions the hybrid A* search gets (at most ``max_expansions``)
+        before the subdivision of the holonomic route takes over (a count, not a time, so that
+        answers do not depend on the machine's load).
     reverse_cost_factor : float
         Car search: cost multiplier for distance driven in reverse (≥ 1; 1 = shortest path).
     direction_change_cost_m : float or None
@@ -168,7 +169,7 @@ class DriveLimits:
     heuristic_weight: float = 1.5
     max_split_depth: int = 18
     max_steering_checks: int = 30_000
-    first_search_s: float = 1.5
+    first_search_expansions: int = 2000
 
     def __post_init__(self) -> None:
         for name in ("check_step_m", "check_step_deg", "path_step_m", "path_step_deg"):
@@ -811,7 +812,7 @@ def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, rev
     (x m, y m, heading deg).
 
     First hybrid A* (:func:`floorfit.motion.plan_car_path`): with reverse and a holonomic route
-    ``holonomic_local`` given, for at most ``limits.first_search_s``; then, for a car that may
+    ``holonomic_local`` given, for at most ``limits.first_search_expansions``; then, for a car that may
     reverse, the Reeds–Shepp subdivision of the holonomic route (:func:`plan_car_subdivision`;
     ``differential(deadline)`` may give its straights-and-turns plan, see there),
     which is complete relative to the holonomic analysis. Found paths are shortened with
@@ -832,12 +833,12 @@ def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, rev
     t0 = time.perf_counter()
     deadline = None if limits.time_limit_s is None else t0 + limits.time_limit_s
     fallback = rev and (holonomic_local is not None or differential is not None)
-    first_limit = limits.time_limit_s
+    search_limits = limits
     if fallback:
-        first_limit = limits.first_search_s if first_limit is None else min(first_limit, limits.first_search_s)
+        search_limits = replace(limits, max_expansions=min(limits.max_expansions, limits.first_search_expansions))
     exact = exact or ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
-    plan = _plan_car_search(slices, vehicle, start_local, goal_local, rev, limits, grid, check, first_limit, exact,
-                            deadline)
+    plan = _plan_car_search(slices, vehicle, start_local, goal_local, rev, search_limits, grid, check,
+                            limits.time_limit_s, exact, deadline)
     if plan.found or not fallback:
         if not plan.found:
             plan.limit = _search_limit(plan.reason)
@@ -849,8 +850,8 @@ def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, rev
     sub.expansions = plan.expansions
     sub.poses_checked = plan.poses_checked
     searched = "hybrid A* " + (plan.reason or "found nothing")
-    if _search_limit(plan.reason) == "time_limit_s" and first_limit != limits.time_limit_s:
-        searched = f"hybrid A* stopped after {limits.first_search_s:g} s (first_search_s)"
+    if _search_limit(plan.reason) == "max_expansions" and search_limits.max_expansions < limits.max_expansions:
+        searched = f"hybrid A* stopped after {search_limits.max_expansions} expansions (first_search_expansions)"
     sub.reason = f"{sub.reason}; {searched}"
     sub.elapsed_s = time.perf_counter() - t0
     return sub

@@ -450,8 +450,54 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
         check = ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
     clearance = ROUTE_CLEARANCE_MARGINS * 0.5 * limits.check_step_m
     dp = _convert(slices, G, s_loc, g_loc, reverse, limits, check, clearance, deadline)
+    if dp is not None and dp.found and reverse and dp.direction_changes > 0:
+        dp = _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline)
     if dp is not None:
         dp.elapsed_s = time.perf_counter() - t0
+    return dp
+
+
+#: Turning radius of the car path a differential base may copy, in vehicle widths (at least 0.5 m).
+VIRTUAL_CAR_RADIUS_WIDTHS = 1.5
+
+
+def _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline):
+    """A differential path with direction changes may do better by copying a car's path: hybrid A*
+    for a car of a small turning radius (within ``first_search_expansions``), its arcs made into chords and
+    turns in place (:func:`floorfit.motion.subdivision.arcs_as_turns`), a last rotate-drive-rotate
+    onto the goal; kept when it has fewer direction changes, or as many and a shorter length."""
+    import time
+    from dataclasses import replace
+
+    from floorfit.motion.drivable import FOUND, DrivePlan, finish_plan, plan_car
+    from floorfit.motion.subdivision import arcs_as_turns, differential_steer, shortcut_differential
+
+    budget = None if deadline is None else deadline - time.perf_counter()
+    if budget is not None and budget <= 0.05:
+        return dp
+    veh = slices.vehicle
+    car = replace(veh, mode="car", reverse=True,
+                  min_turn_radius_m=max(0.5, VIRTUAL_CAR_RADIUS_WIDTHS * veh.width_m))
+    search = replace(limits, time_limit_s=budget,
+                     max_expansions=min(limits.max_expansions, limits.first_search_expansions))
+    cp = plan_car(slices, car, s_loc, g_loc, limits=search, exact=check)
+    if not cp.found:
+        return dp
+    segs = arcs_as_turns(cp.segments, free=check.free)
+    if segs is None:
+        return dp
+    end = segs[-1].end if segs else cp.segments[0].start
+    goal = (g_loc[0], g_loc[1], end[2] + math.radians(float(arc_deg(math.degrees(end[2]), g_loc[2]))))
+    if math.hypot(goal[0] - end[0], goal[1] - end[1]) > 1e-9 or abs(goal[2] - end[2]) > 1e-12:
+        tail = next((c for c in differential_steer(True, [])(end, goal)[:4] if check.free(c)), None)
+        if tail is None:
+            return dp
+        segs = segs + tail
+    segs = shortcut_differential(segs, free=check.free, reverse=True, deadline=deadline)
+    alt = DrivePlan(FOUND, segments=segs, reason="turns in place and straights along a car path of radius "
+                    f"{car.min_turn_radius_m:.2f} m (fewer direction changes than along the holonomic route)")
+    if (alt.direction_changes, alt.length_m) < (dp.direction_changes, dp.length_m):
+        return finish_plan(alt, check, limits, s_loc, g_loc)
     return dp
 
 

@@ -44,10 +44,19 @@ import numpy as np
 from floorfit.motion._words import word_segments
 from floorfit.motion.poses import wrap_angle
 from floorfit.motion.reeds_shepp import reeds_shepp_words
-from floorfit.motion.segments import Segment, arc, direction_changes, merge_segments, rotate, straight
+from floorfit.motion.segments import (
+    Segment,
+    arc,
+    direction_changes,
+    merge_segments,
+    poses_along,
+    rotate,
+    straight,
+)
 
 __all__ = [
     "SubdivisionResult",
+    "arcs_as_turns",
     "differential_steer",
     "redo",
     "reeds_shepp_steer",
@@ -93,7 +102,7 @@ def _rtr(a, b, reverse: bool) -> list[tuple[float, list[Segment]]]:
     dist = math.hypot(dx, dy)
     towards = math.atan2(dy, dx)
     out = []
-    for heading, drive, penalty in [(towards, dist, 0.0)] + ([(towards + math.pi, -dist, 1.0)] if reverse else []):
+    for heading, drive, penalty in [(towards, dist, 0.0)] + ([(towards + math.pi, -dist, math.pi)] if reverse else []):
         first = float(wrap_angle(heading - a[2]))
         for t1 in (first, first - math.copysign(2 * math.pi, first)) if first else (0.0,):
             spin = rotate(a, t1)
@@ -274,7 +283,7 @@ def shortcut_differential(segments: list[Segment], *, free: Free, reverse: bool,
                 for cost, cand in _rtr(pose, q, reverse):
                     spin, go, sync = cand
                     changes = 1.0 if last_dir is not None and go.direction != last_dir else 0.0
-                    options.append((cost + 2.0 * changes, [spin, go], sync))
+                    options.append((cost + 2.0 * math.pi * changes, [spin, go], sync))
                 for _, drive, sync in sorted(options, key=lambda item: item[0]):
                     if free(drive) and free([sync]):
                         hop = (j, drive, sync)
@@ -302,6 +311,45 @@ def shortcut_differential(segments: list[Segment], *, free: Free, reverse: bool,
     before = (direction_changes(segs), _rotation_cost(segs), len(segs))
     after = (direction_changes(result), _rotation_cost(result), len(result))
     return result if after <= before or len(result) < len(segs) else segs
+
+
+def arcs_as_turns(segments: list[Segment], *, free: Free, max_halvings: int = 6) -> list[Segment] | None:
+    """A car path for a differential base: each arc becomes equal chords with a rotation in place at
+    every joint (the rotation by the arc's angle share, then the chord), halving the chords until
+    they pass ``free`` (the chords and joints converge to the arc as they shorten). None when an arc
+    still collides after ``max_halvings`` halvings."""
+    out: list[Segment] = []
+    pose = segments[0].start if segments else None
+    for seg in segments:
+        if seg.kind != "arc":
+            piece = [redo(seg, pose)]
+            if not free(piece):
+                return None
+            out += piece
+            pose = piece[-1].end
+            continue
+        done = False
+        for level in range(max_halvings + 1):
+            m = max(1, math.ceil(abs(seg.angle_deg) / 30.0)) * 2 ** level
+            fracs = np.arange(m + 1) / m
+            pts = poses_along(redo(seg, pose), fracs)
+            piece, p = [], pose
+            for q in pts[1:]:
+                dx, dy = q[0] - p[0], q[1] - p[1]
+                face = math.atan2(dy, dx) if seg.direction == "forward" else math.atan2(-dy, -dx)
+                spin = rotate(p, float(wrap_angle(face - p[2])))
+                go = straight(spin.end, math.copysign(math.hypot(dx, dy), seg.sign))
+                piece += [spin, go]
+                p = go.end
+            piece.append(rotate(p, float(wrap_angle(pts[-1][2] - p[2]))))
+            if free(piece):
+                out += piece
+                pose = piece[-1].end
+                done = True
+                break
+        if not done:
+            return None
+    return merge_segments(out)
 
 
 def car_cost(segments: Sequence[Segment], reverse_factor: float, change_cost: float) -> float:
