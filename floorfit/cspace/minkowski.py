@@ -35,6 +35,8 @@ import numpy as np
 import shapely
 from shapely.geometry import Polygon
 
+from floorfit.plan.dxf.cleanup import clean_segments, segments_of_lines
+
 __all__ = ["convex_parts", "is_convex", "minkowski_sum", "ObstacleSet", "ConvexGroup", "prepare_obstacles",
            "cobstacle_pieces", "cobstacle_rings", "convex_sums", "convex_sum_polygons", "footprint_parts_at"]
 
@@ -300,15 +302,8 @@ def _segments_of(geoms) -> np.ndarray:
     if len(allg) == 0:
         return np.zeros((0, 2, 2))
     coords, idx = shapely.get_coordinates(allg, return_index=True)
-    same = idx[1:] == idx[:-1]
-    seg = np.stack([coords[:-1][same], coords[1:][same]], axis=1)
-    seg = seg[np.any(seg[:, 0] != seg[:, 1], axis=1)]
-    # de-duplicate identical segments (either direction)
-    a = np.where((seg[:, 0, 0] < seg[:, 1, 0]) | ((seg[:, 0, 0] == seg[:, 1, 0]) & (seg[:, 0, 1] <= seg[:, 1, 1])),
-                 0, 1)
-    canon = np.stack([seg[np.arange(len(seg)), a], seg[np.arange(len(seg)), 1 - a]], axis=1)
-    _, first = np.unique(canon.reshape(len(canon), 4), axis=0, return_index=True)
-    return canon[np.sort(first)]
+    # zero-length and duplicate segments dropped, collinear overlapping ones merged (exact)
+    return clean_segments(segments_of_lines(coords, idx))
 
 
 #: Two convex pieces are merged when the hull of their union exceeds the union's area by

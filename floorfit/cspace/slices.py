@@ -33,20 +33,34 @@ from __future__ import annotations
 
 import math
 import os
+import signal
+from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
 import shapely
 from scipy.sparse import coo_matrix
-from scipy.spatial.distance import pdist
 from scipy.sparse.csgraph import connected_components
+from scipy.spatial.distance import pdist
 from shapely.geometry import Polygon, box
 
-from floorfit.cspace.headings import HeadingCells, default_step_deg, dominant_directions_deg, make_heading_cells, \
-    rotation_displacement_m, wrap_deg
-from floorfit.cspace.minkowski import ObstacleSet, cobstacle_pieces, cobstacle_rings, convex_parts, footprint_parts_at, \
-    prepare_obstacles
+from floorfit.cspace.headings import (
+    HeadingCells,
+    default_step_deg,
+    dominant_directions_deg,
+    make_heading_cells,
+    rotation_displacement_m,
+    wrap_deg,
+)
+from floorfit.cspace.minkowski import (
+    ObstacleSet,
+    cobstacle_pieces,
+    cobstacle_rings,
+    convex_parts,
+    footprint_parts_at,
+    prepare_obstacles,
+)
 from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import Vehicle
 
@@ -58,7 +72,9 @@ except ImportError:                    # pragma: no cover - depends on the insta
 __all__ = ["SliceSet", "build_slices", "choose_headings", "obstacles_for", "obstacles_met", "obstacle_clusters",
            "SliceRecipe", "slice_recipe", "slice_domain", "cluster_reach_m", "run_slice_jobs", "slice_cobstacle",
            "slice_free", "free_components", "canonical_order", "union_polygons", "UNION_BACKEND", "CLIP_SCALE",
-           "CLIP_GUARD_M", "MIN_COMPONENT_AREA_M2", "DOMAIN_PAD_M", "BOUNDS"]
+           "CLIP_GUARD_M", "MIN_COMPONENT_AREA_M2", "DOMAIN_PAD_M", "BOUNDS", "half_turn_twins",
+           "CASCADE_MIN_RINGS", "CASCADE_GUARD_M", "worker_count", "pool_size", "POOL_MIN_WORK",
+           "shared_jobs", "TWIN_GROW_TOL_M"]
 
 #: Free-space components smaller than this are dropped, square metres.
 MIN_COMPONENT_AREA_M2 = 1e-6
@@ -277,29 +293,95 @@ def _tree_polygons(tree) -> list:
     return out
 
 
+#: A cluster with at least this many rings is unioned divide-and-conquer (:func:`_cascade_union`);
+#: smaller ones in one sweep. On a real drawing the walls form one cluster of thousands of
+#: overlapping pieces, and one sweep over them all grows far worse than linearly.
+CASCADE_MIN_RINGS = 512
+#: Rings per leaf of the cascade (unioned in one sweep before the pairwise merges).
+CASCADE_LEAF = 32
+#: Extra growth of the sound footprint (metres) when a cascade runs: every level of merges
+#: may round an intersection point by half a grid step (at most √2/2 steps off the true
+#: boundary), so 64 steps cover more than 80 levels, far beyond the ~log2(rings / leaf)
+#: levels a cascade has.
+CASCADE_GUARD_M = 64.0 / CLIP_SCALE
+
+
+def _union_sweep(paths) -> list:
+    pc = pyclipper.Pyclipper()
+    pc.AddPaths(paths, pyclipper.PT_SUBJECT, True)
+    return pc.Execute(pyclipper.CT_UNION, pyclipper.PFT_NONZERO, pyclipper.PFT_NONZERO)
+
+
+def _morton_order(centres: np.ndarray) -> np.ndarray:
+    """Indices of ``centres`` (N, 2) along a Z-order (Morton) curve over their bounds (stable on ties)."""
+    lo = centres.min(axis=0)
+    span = np.maximum(centres.max(axis=0) - lo, 1e-300)
+    q = np.minimum((centres - lo) / span * 65535.0, 65535.0).astype(np.uint64)
+
+    def spread(v):
+        v = (v | (v << np.uint64(8))) & np.uint64(0x00FF00FF)
+        v = (v | (v << np.uint64(4))) & np.uint64(0x0F0F0F0F)
+        v = (v | (v << np.uint64(2))) & np.uint64(0x33333333)
+        return (v | (v << np.uint64(1))) & np.uint64(0x55555555)
+
+    return np.argsort(spread(q[:, 0]) | (spread(q[:, 1]) << np.uint64(1)), kind="stable")
+
+
+def _cascade_union(paths: list, centres: np.ndarray) -> list:
+    """Union of integer ``paths`` (non-zero winding) by divide and conquer, as GEOS's cascaded union does.
+
+    The rings are ordered along a Z-order curve of their centres, unioned in leaves of
+    :data:`CASCADE_LEAF` neighbours, then neighbouring results are merged pairwise up a
+    binary tree. Each sweep then sees only the edges of one neighbourhood, so the cost
+    grows about as n·log n instead of with n times the edges crossing a scanline of the
+    whole cluster. Deterministic: the same rings give the same result.
+    """
+    order = _morton_order(centres)
+    level = [_union_sweep([paths[i] for i in order[a:a + CASCADE_LEAF]]) for a in range(0, len(order), CASCADE_LEAF)]
+    while len(level) > 1:
+        merged = [_union_sweep(level[a] + level[a + 1]) for a in range(0, len(level) - 1, 2)]
+        if len(level) % 2:
+            merged.append(level[-1])
+        level = merged
+    return level[0] if level else []
+
+
+def _cascades(counts: np.ndarray, groups: np.ndarray | None) -> bool:
+    """True when some cluster of rings is big enough for :func:`_cascade_union`."""
+    if groups is None:
+        return len(counts) >= CASCADE_MIN_RINGS
+    return bool(len(groups)) and int(np.bincount(groups).max()) >= CASCADE_MIN_RINGS
+
+
 def _clip_free(coords: np.ndarray, counts: np.ndarray, groups: np.ndarray | None, region) -> np.ndarray | None:
     """``region`` minus the union of the rings (non-zero winding) on the integer grid; None if clipping fails.
 
-    Rings of one obstacle cluster (``groups``: a cluster label per ring) are unioned in a
-    sweep of their own (few active edges per scanline), then all cluster unions, which are
-    disjoint, are subtracted from the region in one last sweep.
+    Rings of one obstacle cluster (``groups``: a cluster label per ring) are unioned on
+    their own: in one sweep (few active edges per scanline), or divide-and-conquer
+    (:func:`_cascade_union`) for a cluster of :data:`CASCADE_MIN_RINGS` rings or more. Then
+    all cluster unions, which are disjoint, are subtracted from the region in one last sweep.
     """
     ints = np.round(coords * CLIP_SCALE).astype(np.int64)
     ends = np.cumsum(counts)
     starts = ends - counts
+    if groups is None and len(counts) >= CASCADE_MIN_RINGS:
+        groups = np.zeros(len(counts), dtype=np.int64)
     try:
         if groups is None or not len(counts):
             paths = [ints[a:b] for a, b in zip(starts, ends)]
         else:
             order = np.argsort(groups, kind="stable")
             paths = []
+            centres = None
             for grp in np.split(order, np.flatnonzero(np.diff(groups[order])) + 1):
                 if len(grp) == 1:
                     paths.append(ints[starts[grp[0]]:ends[grp[0]]])
-                    continue
-                pc = pyclipper.Pyclipper()
-                pc.AddPaths([ints[starts[i]:ends[i]] for i in grp], pyclipper.PT_SUBJECT, True)
-                paths.extend(pc.Execute(pyclipper.CT_UNION, pyclipper.PFT_NONZERO, pyclipper.PFT_NONZERO))
+                elif len(grp) >= CASCADE_MIN_RINGS:
+                    if centres is None:
+                        centres = np.add.reduceat(coords, starts, axis=0) / counts[:, None]
+                    paths.extend(_cascade_union([ints[starts[i]:ends[i]] for i in grp], centres[grp]))
+                else:
+                    paths.extend(_union_sweep([ints[starts[i]:ends[i]] for i in grp]))
         pc = pyclipper.Pyclipper()
         pc.StrictlySimple = True
         if paths:
@@ -361,12 +443,16 @@ def slice_free(obstacles: ObstacleSet, parts: list[Polygon], heading: float, gro
     about 1e-12 m of the GEOS path, which is used when pyclipper is missing or fails).
     """
     if UNION_BACKEND == "clipper":
-        verts = footprint_parts_at(parts, heading, grow if grow >= 0 else 0.0)
         t = math.radians(heading)
         c, s = math.cos(t), math.sin(t)
         anchor = np.array([c * anchor_local[0] - s * anchor_local[1], s * anchor_local[0] + c * anchor_local[1]])
+        verts = footprint_parts_at(parts, heading, grow if grow >= 0 else 0.0)
         coords, counts, owner = cobstacle_rings(obstacles, verts, anchor)
         groups = labels[owner] if labels is not None and len(labels) else None
+        if grow > 0 and _cascades(counts, groups):
+            # a sound slice whose union runs in levels: grow by the rounding those levels may add
+            verts = footprint_parts_at(parts, heading, grow + CASCADE_GUARD_M)
+            coords, counts, owner = cobstacle_rings(obstacles, verts, anchor)
         comps = _clip_free(coords, counts, groups, region)
         if comps is not None:
             return comps
@@ -449,6 +535,11 @@ class SliceSet:
     bound: str
     tolerance_m: float
     domain: Polygon
+    #: ``twins[k]``: the slice whose free space slice k shares (k itself when none; see
+    #: :func:`half_turn_twins`), or None. Consumers may reuse work done for the twin.
+    twins: np.ndarray | None = field(default=None, repr=False)
+    #: Processes the slices were built on.
+    workers_used: int = field(default=1, repr=False, compare=False)
     _trees: list = field(default_factory=list, repr=False)
 
     @property
@@ -460,7 +551,15 @@ class SliceSet:
 
     def tree(self, k: int) -> shapely.STRtree:
         if not self._trees:
-            self._trees.extend(shapely.STRtree(c) for c in self.components)
+            twins = self.twins if self.twins is not None else range(len(self.components))
+            built: dict[int, shapely.STRtree] = {}
+            for j, t in enumerate(twins):
+                t = int(t)
+                same = t in built and len(self.components[t]) == len(self.components[j]) and \
+                    all(a is b for a, b in zip(self.components[t], self.components[j]))
+                if not same:
+                    built[t] = shapely.STRtree(self.components[j])
+                self._trees.append(built[t])
         return self._trees[k]
 
     def free(self, k: int):
@@ -594,20 +693,125 @@ def cluster_reach_m(recipe: SliceRecipe) -> float:
     return recipe.diameter * (1.0 + 1e-9) + 1e-6
 
 
+#: Slice building goes to a process pool only above this much work (obstacle pieces × slices):
+#: below it, starting the processes costs more than they save. The results do not depend on it.
+POOL_MIN_WORK = 100_000
+
+
+def worker_count(workers: int | None) -> int:
+    """Processes to use for ``workers`` (None or 0: every core this process may run on)."""
+    if workers:
+        return max(1, int(workers))
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):          # pragma: no cover - platforms without affinity
+        return os.cpu_count() or 1
+
+
+def _ignore_interrupt() -> None:
+    # Ctrl-C reaches the whole process group: the parent stops the pool, workers stay quiet
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def _init_pool_worker(obstacles, domain, labels=None):
+    _ignore_interrupt()
+    _init_worker(obstacles, domain, labels)
+
+
 def run_slice_jobs(obstacles: ObstacleSet, jobs: list, domain: Polygon, labels: np.ndarray | None,
-                   workers: int | None = 1) -> list[np.ndarray]:
-    """Free-space components of every job of a :class:`SliceRecipe`, on ``workers`` processes (None: all cores)."""
-    n_workers = (os.cpu_count() or 1) if workers is None else max(1, int(workers))
-    if n_workers > 1 and len(jobs) >= 8:
-        with ProcessPoolExecutor(max_workers=n_workers, initializer=_init_worker,
-                                 initargs=(obstacles, domain, labels)) as pool:
-            return list(pool.map(_worker_slice, jobs, chunksize=max(1, len(jobs) // (4 * n_workers))))
-    return [_slice_components(obstacles, p, h, g, domain, a, labels) for p, h, g, a in jobs]
+                   workers: int | None = 1, progress: Callable[[int, int], None] | None = None) -> list[np.ndarray]:
+    """Free-space components of every job of a :class:`SliceRecipe`, on ``workers`` processes (None: all cores).
+
+    Each slice is computed by the same function whichever process runs it, so the result is
+    the same for any number of workers. Small runs (below :data:`POOL_MIN_WORK`) stay in this
+    process. ``progress(done, total)`` is called as slices complete. Ctrl-C stops the pool
+    and raises KeyboardInterrupt here.
+    """
+    n_workers = min(worker_count(workers), max(1, len(jobs)))
+    total = len(jobs)
+    if n_workers > 1 and len(jobs) >= 8 and obstacles.piece_count * len(jobs) >= POOL_MIN_WORK:
+        pool = ProcessPoolExecutor(max_workers=n_workers, initializer=_init_pool_worker,
+                                   initargs=(obstacles, domain, labels))
+        try:
+            out = []
+            for comps in pool.map(_worker_slice, jobs, chunksize=max(1, len(jobs) // (8 * n_workers))):
+                out.append(comps)
+                if progress is not None:
+                    progress(len(out), total)
+            pool.shutdown(wait=True)
+            return out
+        except BaseException:
+            pool.shutdown(wait=False, cancel_futures=True)
+            for proc in list(getattr(pool, "_processes", {}).values()):
+                proc.terminate()
+            raise
+    out = []
+    for p, h, g, a in jobs:
+        out.append(_slice_components(obstacles, p, h, g, domain, a, labels))
+        if progress is not None:
+            progress(len(out), total)
+    return out
+
+
+def pool_size(obstacles: ObstacleSet, n_jobs: int, workers: int | None) -> int:
+    """Processes :func:`run_slice_jobs` will use for ``n_jobs`` slices of ``obstacles``."""
+    n = min(worker_count(workers), max(1, n_jobs))
+    return n if n > 1 and n_jobs >= 8 and obstacles.piece_count * n_jobs >= POOL_MIN_WORK else 1
+
+
+def _half_turn_symmetric(parts: list[Polygon]) -> bool:
+    """True when the union of ``parts`` (vehicle frame) is the same point set turned by 180° about the origin."""
+    shape = shapely.union_all(parts) if len(parts) > 1 else parts[0]
+    turned = shapely.transform(shape, lambda c: -c)
+    return bool(shapely.equals(shape, turned))
+
+
+#: Growths (metres) closer than this count as equal for :func:`half_turn_twins`.
+TWIN_GROW_TOL_M = 1e-9
+
+
+def shared_jobs(jobs: list, twins: np.ndarray) -> tuple[np.ndarray, list]:
+    """The slices to compute (indices) and their jobs, each grown by the largest growth of its twins."""
+    own = np.flatnonzero(twins == np.arange(len(twins)))
+    grow = {int(k): jobs[k][2] for k in own}
+    for k, t in enumerate(twins):
+        grow[int(t)] = max(grow[int(t)], jobs[k][2])
+    return own, [(jobs[k][0], jobs[k][1], grow[int(k)], jobs[k][3]) for k in own]
+
+
+def half_turn_twins(cells: HeadingCells, jobs: list) -> np.ndarray:
+    """For every slice, the index of the slice whose free space it shares (itself when none).
+
+    A footprint that is the same point set turned by 180° about the reference point (a
+    rectangle referenced at its centre) has the same C-obstacles at headings h and h + 180°:
+    ``O ⊕ (−R(h + π)F) = O ⊕ R(h)F = O ⊕ (−R(h)F)``. Two such slices share one computation
+    when their footprint parts are the same objects (the same cell shape) and their growths are
+    equal to within :data:`TWIN_GROW_TOL_M` (cell widths computed from wrapped headings
+    differ in the last bits); the slice at the lower index is computed, with the larger of
+    the two growths (:func:`shared_jobs`), so it is sound for both.
+    """
+    twin = np.arange(len(jobs))
+    if len(jobs) < 2:
+        return twin
+    symmetric: dict[int, bool] = {}
+    index = {round(float(h), 9): k for k, h in enumerate(cells.headings)}
+    for k, (parts, h, grow, _) in enumerate(jobs):
+        if not parts:
+            continue
+        j = index.get(round(float(wrap_deg(h + 180.0)), 9))
+        if j is None or j >= k or jobs[j][0] is not parts or abs(jobs[j][2] - grow) > TWIN_GROW_TOL_M:
+            continue
+        if id(parts) not in symmetric:
+            symmetric[id(parts)] = _half_turn_symmetric(parts)
+        if symmetric[id(parts)]:
+            twin[k] = twin[j]
+    return twin
 
 
 def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None = None,
                  extra_headings=(), bound: str = "sound", workers: int | None = 1,
-                 cells: HeadingCells | None = None, obstacles: ObstacleSet | None = None) -> SliceSet:
+                 cells: HeadingCells | None = None, obstacles: ObstacleSet | None = None,
+                 progress: Callable[[int, int], None] | None = None) -> SliceSet:
     """Build the free configuration space of ``vehicle`` in ``plan``, one slice per heading cell.
 
     Parameters
@@ -620,7 +824,11 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
     bound : ``"sound"`` or ``"optimistic"``
         See the module docstring.
     workers : int or None
-        Processes for the slices (headings are independent). None: all cores.
+        Processes for the slices (headings are independent). None or 0: all cores. The
+        free space is the same for any number (each slice is computed by the same code).
+    progress : callable, optional
+        ``progress(done, total)`` as slices complete (``total`` counts the slices computed:
+        a footprint symmetric under a half turn shares slices between h and h + 180°).
     """
     if bound not in BOUNDS:
         raise ValueError(f"bound must be one of {BOUNDS}")
@@ -631,8 +839,13 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
     domain = slice_domain(obstacles.bounds, vehicle)
     # obstacles farther apart than the (grown) footprint's diameter never share a C-obstacle
     labels = obstacle_clusters(obstacles, cluster_reach_m(recipe))
-    comps = run_slice_jobs(obstacles, recipe.jobs, domain, labels, workers)
+    # a footprint symmetric under a half turn: headings h and h + 180° share one slice
+    twin = half_turn_twins(cells, recipe.jobs)
+    own, jobs = shared_jobs(recipe.jobs, twin)
+    done = dict(zip(own.tolist(), run_slice_jobs(obstacles, jobs, domain, labels, workers, progress)))
+    comps = [done[k] if twin[k] == k else done[int(twin[k])].copy() for k in range(len(twin))]
     grow = recipe.grow
     return SliceSet(plan=plan, vehicle=vehicle, cells=cells, components=comps,
                     grow_m=grow if bound == "sound" else -grow, bound=bound,
-                    tolerance_m=recipe.tolerance, domain=domain)
+                    tolerance_m=recipe.tolerance, domain=domain, twins=twin,
+                    workers_used=pool_size(obstacles, len(jobs), workers))

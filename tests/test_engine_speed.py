@@ -1,0 +1,227 @@
+"""The divide-and-conquer union, shared half-turn slices, worker pools and the linework clean-up.
+
+Each speed-up must leave the free space as it was: the cascaded union is compared with one
+sweep over the same rings and with an independent pose test (shapely's exact predicates on
+the footprint placed in the drawing), shared slices with slices computed one by one, several
+workers with one, and the cleaned linework with the input segment by segment in exact
+arithmetic.
+"""
+
+import math
+
+import numpy as np
+import pytest
+import shapely
+
+from floorfit.cspace import slices as cspace
+from floorfit.cspace.headings import make_heading_cells
+from floorfit.cspace.minkowski import prepare_obstacles
+from floorfit.cspace.roadmap import build_roadmap
+from floorfit.cspace.slices import build_slices, half_turn_twins, obstacle_clusters, slice_recipe
+from floorfit.plan.dxf.cleanup import _orient_exact, clean_segments
+from floorfit.plan.model import Plan
+from floorfit.vehicles.rigid import vehicle_from_outline
+
+
+def _wavy(x0, y0, x1, y1, step=0.1, amp=0.01):
+    """A wall drawn as many short segments that zig-zag by ``amp`` (as a flattened curve would)."""
+    n = max(2, int(math.hypot(x1 - x0, y1 - y0) / step))
+    t = np.linspace(0.0, 1.0, n + 1)
+    x, y = x0 + t * (x1 - x0), y0 + t * (y1 - y0)
+    nx_, ny_ = -(y1 - y0), x1 - x0
+    norm = math.hypot(nx_, ny_)
+    off = amp * ((np.arange(n + 1) % 2) * 2 - 1)
+    off[0] = off[-1] = 0.0
+    return np.c_[x + off * nx_ / norm, y + off * ny_ / norm]
+
+
+def _rooms_plan(rooms=4, size=4.0, door=1.2) -> Plan:
+    """A grid of rooms with doors in the middle of each wall: the outer ring is one cluster of about 800 segments."""
+    walls = []
+    span = rooms * size
+    for i in range(rooms + 1):
+        c = i * size
+        for a in range(rooms):
+            lo, hi = a * size, (a + 1) * size
+            mid = 0.5 * (lo + hi)
+            inner = 0 < i < rooms
+            for s0, s1 in ((lo, mid - door / 2), (mid + door / 2, hi)) if inner else ((lo, hi),):
+                walls.append(shapely.LineString(_wavy(c, s0, c, s1)))
+                walls.append(shapely.LineString(_wavy(s0, c, s1, c)))
+    walls.append(shapely.LineString([(0, 0), (span, 0)]))
+    solids = [shapely.box(1.0, 1.0, 1.6, 1.4), shapely.box(9.0, 5.0, 9.5, 7.0)]
+    return Plan.from_geometries(walls=walls, solids=solids)
+
+
+CENTRED = [[0.4, -0.3], [0.4, 0.3], [-0.4, 0.3], [-0.4, -0.3]]          # 0.8 x 0.6, reference at the centre
+OFFSET = [[0.55, -0.31], [0.55, 0.31], [-0.35, 0.31], [-0.35, -0.31]]   # reference on the axle
+
+
+@pytest.fixture(scope="module")
+def rooms():
+    return _rooms_plan()
+
+
+@pytest.fixture(scope="module")
+def cells():
+    return make_heading_cells(15.0, [0.0, 90.0, 180.0, 270.0])      # wall directions come in fours
+
+
+def _same_free_space(a, b, tol_area=1e-9):
+    assert len(a) == len(b)
+    for k in range(len(a)):
+        assert len(a.components[k]) == len(b.components[k]), k
+        diff = shapely.symmetric_difference(a.free(k), b.free(k)).area
+        assert diff < tol_area, (k, diff)
+
+
+def test_rooms_plan_is_one_big_cluster(rooms, cells):
+    veh = vehicle_from_outline(CENTRED, name="centred")
+    obs = prepare_obstacles(rooms.walls, rooms.solids)
+    labels = obstacle_clusters(obs, cspace.cluster_reach_m(slice_recipe(rooms, veh, cells, "sound")))
+    # every wall piece touches the next: the cascade threshold is reached by one cluster
+    assert np.bincount(labels).max() >= cspace.CASCADE_MIN_RINGS
+
+
+@pytest.mark.parametrize("bound", ["sound", "optimistic"])
+def test_cascaded_union_equals_one_sweep(rooms, cells, bound, monkeypatch):
+    veh = vehicle_from_outline(OFFSET, name="axle")
+    cascaded = build_slices(rooms, veh, cells=cells, bound=bound)
+    monkeypatch.setattr(cspace, "CASCADE_MIN_RINGS", 10 ** 9)
+    one_sweep = build_slices(rooms, veh, cells=cells, bound=bound)
+    # the cascade grows the sound footprint by CASCADE_GUARD_M (64 grid steps, 6e-11 m) more:
+    # areas differ by at most that times the boundary length
+    _same_free_space(cascaded, one_sweep, tol_area=1e-7)
+    assert sum(len(c) for c in cascaded.components) > len(cells)      # doors: several rooms joined
+
+
+def test_cascaded_slices_are_clear_of_every_obstacle(rooms, cells):
+    """Sample points of the free space; the footprint there (at the slice heading) meets no obstacle."""
+    veh = vehicle_from_outline(OFFSET, name="axle")
+    slices = build_slices(rooms, veh, cells=cells)
+    obstacles = np.concatenate([rooms.walls, rooms.solids])
+    tree = shapely.STRtree(obstacles)
+    rng = np.random.default_rng(7)
+    checked = 0
+    for k in range(0, len(slices), 3):
+        h = float(slices.cells.headings[k])
+        for comp in slices.components[k]:
+            x0, y0, x1, y1 = comp.bounds
+            pts = shapely.points(rng.uniform(x0, x1, 60), rng.uniform(y0, y1, 60))
+            pts = pts[shapely.contains(comp, pts)]
+            for p in pts[:10]:
+                foot = shapely.affinity.translate(shapely.affinity.rotate(veh.footprint, h, origin=(0, 0)),
+                                                  p.x, p.y)
+                assert not len(tree.query(foot, predicate="intersects")), (k, p.x, p.y)
+                checked += 1
+    assert checked > 100
+
+
+def test_half_turn_twins_only_for_symmetric_footprints(rooms, cells):
+    sym = vehicle_from_outline(CENTRED, name="centred")
+    asym = vehicle_from_outline(OFFSET, name="axle")
+    twins_sym = half_turn_twins(cells, slice_recipe(rooms, sym, cells, "sound").jobs)
+    twins_asym = half_turn_twins(cells, slice_recipe(rooms, asym, cells, "sound").jobs)
+    assert np.array_equal(twins_asym, np.arange(len(cells)))
+    shared = np.flatnonzero(twins_sym != np.arange(len(cells)))
+    assert len(shared) == len(cells) // 2              # every heading h ≥ 0 shares with h − 180°
+    for k in shared:
+        d = (cells.headings[k] - cells.headings[twins_sym[k]]) % 360.0
+        assert abs(d - 180.0) < 1e-9
+
+
+@pytest.mark.parametrize("bound", ["sound", "optimistic"])
+def test_shared_slices_equal_slices_computed_one_by_one(rooms, cells, bound, monkeypatch):
+    veh = vehicle_from_outline(CENTRED, name="centred")
+    shared = build_slices(rooms, veh, cells=cells, bound=bound)
+    assert shared.twins is not None and (shared.twins != np.arange(len(cells))).any()
+    monkeypatch.setattr(cspace, "half_turn_twins", lambda cells, jobs: np.arange(len(jobs)))
+    single = build_slices(rooms, veh, cells=cells, bound=bound)
+    # h and h + 180° are computed from footprints rotated by different floating-point angles
+    _same_free_space(shared, single)
+    ga, gb = build_roadmap(shared), build_roadmap(single)
+    assert sorted(ga.nodes) == sorted(gb.nodes) and sorted(ga.edges) == sorted(gb.edges)
+
+
+def test_two_workers_give_the_same_slices_as_one(rooms, cells, monkeypatch):
+    veh = vehicle_from_outline(OFFSET, name="axle")
+    monkeypatch.setattr(cspace, "POOL_MIN_WORK", 0)
+    one = build_slices(rooms, veh, cells=cells, workers=1)
+    two = build_slices(rooms, veh, cells=cells, workers=2)
+    assert one.workers_used == 1 and two.workers_used == 2
+    for a, b in zip(one.components, two.components):
+        assert list(shapely.to_wkb(a)) == list(shapely.to_wkb(b))        # identical, not merely close
+
+
+def test_worker_count_defaults_to_every_core():
+    assert cspace.worker_count(3) == 3
+    assert cspace.worker_count(None) == cspace.worker_count(0) >= 1
+
+
+def _covered_exactly(seg, cleaned) -> bool:
+    """Every input segment lies on one cleaned segment, decided in exact arithmetic."""
+    for s in seg:
+        lo, hi = sorted([tuple(s[0]), tuple(s[1])])
+        if lo == hi:
+            continue
+        ok = False
+        for p, q in cleaned:
+            if _orient_exact(p, q, lo) == 0 and _orient_exact(p, q, hi) == 0 and tuple(p) <= lo and hi <= tuple(q):
+                ok = True
+                break
+        if not ok:
+            return False
+    return True
+
+
+def test_clean_segments_merges_only_what_is_exactly_collinear():
+    seg = np.array([
+        [[0, 0], [1, 0]], [[1, 0], [2, 0]], [[0.5, 0], [3, 0]],     # one run 0..3
+        [[5, 0], [6, 0]],                                             # same line, apart: kept
+        [[2, 2], [2, 2]],                                             # zero length: dropped
+        [[1, 0], [0, 0]],                                             # duplicate, reversed: dropped
+        [[0.1, 0.1], [0.3, 0.3]], [[0.3, 0.3], [0.7, 0.7]],           # touching on y = x: merged
+        [[0, 1], [1, 2]], [[1, 2], [3, 4.000000000000001]],           # one ulp off the line: kept apart
+    ], dtype=float)
+    out = clean_segments(seg)
+    got = sorted(tuple(map(tuple, s)) for s in out)
+    assert got == sorted([((0.0, 0.0), (3.0, 0.0)), ((5.0, 0.0), (6.0, 0.0)), ((0.1, 0.1), (0.7, 0.7)),
+                          ((0.0, 1.0), (1.0, 2.0)), ((1.0, 2.0), (3.0, 4.000000000000001))])
+    assert _covered_exactly(seg, out)
+
+
+def test_clean_segments_keeps_every_point_on_random_linework():
+    rng = np.random.default_rng(3)
+    # axis-aligned and diagonal lines cut into overlapping pieces, plus random segments
+    pieces = []
+    for _ in range(40):
+        a, b = sorted(rng.integers(0, 40, 2) / 4.0)
+        y = float(rng.integers(0, 5))
+        pieces += [[[a, y], [b, y]], [[y, a], [y, b]], [[a, a], [b, b]]]
+    pieces += rng.uniform(0, 10, (30, 2, 2)).tolist()
+    seg = np.asarray(pieces, dtype=float)
+    out = clean_segments(seg)
+    assert len(out) < len(seg)
+    assert _covered_exactly(seg, out)
+    # and nothing new: every cleaned endpoint is an input endpoint, every cleaned segment is covered by input
+    ends = {tuple(p) for p in seg.reshape(-1, 2)}
+    assert all(tuple(p) in ends for p in out.reshape(-1, 2))
+    union = shapely.union_all(shapely.linestrings(seg[np.any(seg[:, 0] != seg[:, 1], axis=1)]))
+    assert shapely.covered_by(shapely.linestrings(out), union.buffer(1e-9)).all()
+
+
+def test_cleaned_plan_gives_the_same_free_space(cells):
+    """A wall drawn as overlapping pieces and repeated gives the free space of the wall drawn once."""
+    veh = vehicle_from_outline(OFFSET, name="axle")
+    once = Plan.from_geometries(walls=[shapely.LineString([(0, 0), (10, 0)]), shapely.LineString([(0, 3), (10, 3)])],
+                                solids=[shapely.box(4, 1, 5, 2)])
+    pieces = [shapely.LineString([(0, 0), (4, 0)]), shapely.LineString([(3, 0), (10, 0)]),
+              shapely.LineString([(10, 0), (0, 0)]), shapely.LineString([(0, 3), (5, 3), (10, 3)]),
+              shapely.LineString([(2, 3), (2, 3), (6, 3)])]
+    many = Plan.from_geometries(walls=pieces, solids=[shapely.box(4, 1, 5, 2)])
+    assert prepare_obstacles(many.walls, many.solids).edge_count == prepare_obstacles(once.walls,
+                                                                                      once.solids).edge_count
+    a, b = build_slices(once, veh, cells=cells), build_slices(many, veh, cells=cells)
+    for k in range(len(cells)):
+        assert shapely.equals(a.free(k), b.free(k)) or \
+            shapely.symmetric_difference(a.free(k), b.free(k)).area < 1e-12
