@@ -94,10 +94,19 @@ class TrainPlanResult:
     reason: str = ""
     elapsed_s: float = 0.0
     settings: dict[str, Any] = field(default_factory=dict)
+    #: why a not-found search stopped: "max_expansions" or "time_limit_s" (it gave up), or
+    #: "exhausted" (every cell reachable forward at this resolution was searched: no forward
+    #: path exists at this resolution); "" otherwise
+    stopped_by: str = ""
 
     @property
     def found(self) -> bool:
         return self.status == FOUND
+
+    @property
+    def gave_up(self) -> bool:
+        """Not found because a search limit was reached (a larger limit may find a path)."""
+        return self.status == NOT_FOUND and self.stopped_by in ("max_expansions", "time_limit_s")
 
 
 def cart_pose(train: Train, pose, cart_heading: float | None = None) -> np.ndarray:
@@ -479,9 +488,11 @@ def plan_forward(checker: TrainChecker, starts: Sequence, goal, *, goal_heading_
     while heap:
         if expansions >= cfg.max_expansions:
             out.reason = f"stopped after {expansions} expansions (limit)"
+            out.stopped_by = "max_expansions"
             break
         if cfg.time_limit_s is not None and time.monotonic() - t_start > cfg.time_limit_s:
             out.reason = f"stopped after {cfg.time_limit_s:g} s (time limit), {expansions} expansions"
+            out.stopped_by = "time_limit_s"
             break
         _, _, nid = heapq.heappop(heap)
         n = nodes[nid]
@@ -526,6 +537,7 @@ def plan_forward(checker: TrainChecker, starts: Sequence, goal, *, goal_heading_
             counter += 1
     else:
         out.reason = f"every cell reachable forward at this resolution was searched ({expansions} expansions)"
+        out.stopped_by = "exhausted"
     out.expansions = expansions
     out.elapsed_s = time.monotonic() - t_start
     return out

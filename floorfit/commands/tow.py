@@ -1,9 +1,16 @@
 """``floorfit tow``: can a tractor with a cart drive a route forward, where does the cart cut in,
-how long may the cart be, and how much floor does it need to turn round."""
+how long may the cart be, and how much floor does it need to turn round.
+
+Exit codes: 0 passable, 1 not passable (a route that collides, or a search that searched every
+cell reachable forward at its resolution: no forward path exists at this resolution), 2 bad
+input, 3 the search with --start/--goal gave up at --max-expansions or --time-limit (nothing
+proves it impossible).
+"""
 
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 from floorfit.commands._common import (
     add_plan_arguments,
@@ -19,6 +26,9 @@ HELP = ("a tractor towing a cart: drive a route forward (or search one), off-tra
         "longest cart, turn-around circle")
 ORDER = 30
 
+#: Exit code when the search with --start/--goal gave up at a limit (nothing proves it impossible).
+EXIT_NOT_FOUND_WITHIN_LIMITS = 3
+
 
 def add_arguments(p) -> None:
     add_plan_arguments(p)
@@ -33,6 +43,8 @@ def add_arguments(p) -> None:
                    help="radius of the curves between route poses (default: the smallest the train can hold)")
     p.add_argument("--time-limit", type=float, default=30.0, metavar="S",
                    help="time limit of the search with --start/--goal, seconds (default 30)")
+    p.add_argument("--max-expansions", type=int, metavar="N",
+                   help="states the search with --start/--goal may expand before giving up (default 20000)")
     p.add_argument("--json", metavar="OUT.json", help="write the answer as JSON")
 
 
@@ -60,6 +72,9 @@ def run(args) -> int:  # noqa: C901
     if args.time_limit is not None and not (args.time_limit > 0 and math.isfinite(args.time_limit)):
         raise InputError(f"time limit must be a positive number of seconds, got {args.time_limit!r}", None,
                          "--time-limit")
+    max_exp = getattr(args, "max_expansions", None)
+    if max_exp is not None and max_exp < 1:
+        raise InputError(f"must be a whole number ≥ 1, got {max_exp}", None, "--max-expansions")
     train = load_train(args.vehicle)
     route = None
     if args.route:
@@ -71,6 +86,9 @@ def run(args) -> int:  # noqa: C901
         raise InputError("a route needs at least two poses", None, "--route")
     plan = load_plan_from_args(args)
     settings = SearchSettings(time_limit_s=args.time_limit)
+    if max_exp is not None:
+        settings = replace(settings, max_expansions=max_exp)
+    gave_up = False
     checker = TrainChecker(plan, train, settings.tolerance_m)
     data: dict = {"plan": str(args.plan), "train": train.describe(), "tolerance_m": round(checker.grow_m, 4),
                   "reversing": "not supported: the train drives forward only"}
@@ -92,7 +110,8 @@ def run(args) -> int:  # noqa: C901
         res = plan_forward(checker, [s_loc], g_loc, settings=settings)
         data["mode"] = "search"
         data["search"] = {"status": res.status, "reason": res.reason, "expansions": res.expansions,
-                          "elapsed_s": round(res.elapsed_s, 3), "settings": res.settings}
+                          "elapsed_s": round(res.elapsed_s, 3), "settings": res.settings,
+                          "stopped_by": res.stopped_by or None}
         start_pose = s_loc
         if res.found:
             segments = res.segments
@@ -109,7 +128,14 @@ def run(args) -> int:  # noqa: C901
                 data["blocked"] = {"cause": ex.cause, "x": round(dx, 4), "y": round(dy, 4),
                                    "depth_m": round(ex.depth_m, 4), "clearance_m": ex.clearance_m,
                                    "hitch_angle_deg": round(ex.hitch_angle_deg, 2)}
-                lines.append(f"  NOT passable forward: no forward path for the train found ({res.reason})")
+                if res.gave_up:
+                    gave_up = True
+                    flag = "--max-expansions" if res.stopped_by == "max_expansions" else "--time-limit"
+                    lines.append(f"  not found within the search limits: {res.reason}; no obstacle proves it "
+                                 f"impossible, a larger {flag} may find a path")
+                else:
+                    lines.append(f"  NOT passable forward: no forward path exists at this resolution "
+                                 f"({res.reason})")
                 lines.append(_explain_line(ex, dx, dy, train))
     passable = False
     if segments:
@@ -152,10 +178,13 @@ def run(args) -> int:  # noqa: C901
     lines.append(f"  geometry within {checker.grow_m * 100:.1f} cm (sampled motion, footprints grown: errs towards "
                  f"'does not pass'); reversing with a cart is not supported")
     data["passable"] = passable
+    data["status"] = "passable" if passable else ("not-found-within-limits" if gave_up else "not-passable")
     if args.json:
         write_json_atomic(args.json, data)
     print("\n".join(lines))
-    return 0 if passable else 1
+    if passable:
+        return 0
+    return EXIT_NOT_FOUND_WITHIN_LIMITS if gave_up else 1
 
 
 def _verdict_text(v, train) -> str:
