@@ -197,8 +197,7 @@ def write_corridor_dxf(folder: Path) -> tuple[Path, Path]:
 [clearance]
 reference = "none"
 [layers]
-"A-WALL" = "solid"
-"LINTEL" = "solid"
+"LINTEL" = "wall"
 "TABLE-TOP" = "solid"
 "TABLE-LEGS" = "solid"
 "DUCT" = "solid"

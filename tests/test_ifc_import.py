@@ -121,7 +121,7 @@ def test_default_storey_and_extent(name, storey, extent):
     imp = imported(name)
     assert imp.storey.label == storey
     # the walls' cut gives the MANIFEST extent; other obstacles stay inside it
-    walls = [g for g, c in zip(imp.plan.solids, imp.plan.solid_layers) if c.startswith("IfcWall")]
+    walls = [g for g, c in zip(imp.plan.walls, imp.plan.wall_layers) if c.startswith("IfcWall")]
     b = shapely.bounds(shapely.union_all(walls))
     ox, oy = imp.plan.origin
     assert [b[0] + ox, b[1] + oy, b[2] + ox, b[3] + oy] == pytest.approx(list(extent), abs=0.01)

@@ -32,7 +32,7 @@ from floorfit.analysis.places import find_places, station_regions
 from floorfit.analysis.tight import tight_findings
 from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.sizelimits import check_problem_size
-from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for
+from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for, pool_size
 from floorfit.errors import SiteError
 from floorfit.plan.model import Plan
 from floorfit.plan.site import Site
@@ -59,8 +59,11 @@ def slice_stage(ctx: CheckContext) -> SliceStage:
     cells = choose_headings(plan, vehicle, heading_step_deg=ctx.heading_step_deg, extra_headings=ctx.extra_headings)
     check_problem_size(plan, len(cells))
     obstacles = obstacles_for(plan, vehicle)
-    ctx.progress(f"slices: {len(cells)} headings")
-    slices = build_slices(plan, vehicle, cells=cells, workers=ctx.workers, obstacles=obstacles)
+    processes = pool_size(obstacles, len(cells), ctx.workers)
+    ctx.progress(f"slices: {len(cells)} headings on {processes} process{'es' if processes > 1 else ''}")
+    # a progress object with an ``update(done, total)`` method also gets the count of slices done
+    slices = build_slices(plan, vehicle, cells=cells, workers=ctx.workers, obstacles=obstacles,
+                          progress=getattr(ctx.progress, "update", None))
     ctx.progress("roadmap")
     return SliceStage(cells=cells, obstacles=obstacles, slices=slices, roadmap=build_roadmap(slices))
 

@@ -20,7 +20,8 @@ def add_arguments(p) -> None:
     p.add_argument("--out", default="floorfit-report", metavar="DIR", help="output folder (default ./floorfit-report)")
     p.add_argument("--force", action="store_true", help="write into a folder that holds other files")
     p.add_argument("--heading-step", type=float, metavar="DEG", help="uniform heading step, degrees")
-    p.add_argument("--workers", type=int, default=1, metavar="N", help="processes for the slices (default 1)")
+    p.add_argument("--workers", type=int, default=None, metavar="N",
+                   help="processes for the slices (default: all cores; the answer is the same for any number)")
     p.add_argument("--sweep", action="append", default=[], metavar="FROM:TO",
                    help="draw the drivable path and swept area between two stations; repeatable")
     p.add_argument("--loaded", action="store_true", help="use the vehicle file's [loaded] outline and height")
@@ -66,7 +67,7 @@ def check_and_report(args):
                 raise InputError(f"--sweep must be FROM:TO station names, got '{text}'", None, "--sweep")
             sweeps.append((a.strip(), b.strip()))
     result = run_check(plan, vehicle, stations, site=site, heading_step_deg=args.heading_step,
-                       workers=args.workers, progress=progress.stage, routes=sweeps)
+                       workers=args.workers, progress=progress, routes=sweeps)
     if train is not None:      # a tractor with a cart: the train must follow forward
         tc = articulated_check(plan, train, stations, site, reachable=result.reachable,
                                progress=progress.stage, floor=result.turnability.get("fits"))

@@ -186,14 +186,24 @@ class _Obstacles:
         self.walls, self.wall_h, self.wall_cls, self.wall_ids = [], [], [], []
         self.solids, self.solid_h, self.solid_cls, self.solid_ids = [], [], [], []
         self.per_class: Counter = Counter()
+        self.filled, self.filled_h = [], []      # every piece filled (walls too): for measuring doors
 
     def add(self, mesh: Mesh, pieces) -> None:
         if pieces:
             self.per_class[mesh.ifc_class] += 1
+        linework = mesh.ifc_class.startswith(_WALL_CLASSES)
         for p in pieces:
-            for g in shapely.get_parts(p.geometry):
+            parts = shapely.get_parts(p.geometry)
+            for g in parts:
+                if g.geom_type == "Polygon":
+                    self.filled.append(g)
+                    self.filled_h.append((p.bottom, p.top))
+            if linework:       # walls are outlines, as in drawings (their directions set heading slices)
+                parts = [r for g in parts for r in (shapely.get_rings(g) if g.geom_type == "Polygon" else [g])]
+            for g in parts:
                 filled = g.geom_type == "Polygon"
-                (self.solids if filled else self.walls).append(g)
+                (self.solids if filled else self.walls).append(
+                    g if filled or g.geom_type == "LineString" else shapely.LineString(g.coords))
                 (self.solid_h if filled else self.wall_h).append((p.bottom, p.top))
                 (self.solid_cls if filled else self.wall_cls).append(mesh.ifc_class)
                 (self.solid_ids if filled else self.wall_ids).append(mesh.global_id)
@@ -324,8 +334,9 @@ def import_model(path, *, storey: str | float | None = None, band_top_m: float |
                                                  f"{ids}"))
     origin = obs.origin()
     t3 = time.perf_counter()
-    measured = measure_doors([(entities[m.id], m) for m in door_meshes], obs.solids, obs.solid_h, obs.walls,
-                             obs.wall_h, floor_z)
+    open_lines = [(g, h) for g, h, c in zip(obs.walls, obs.wall_h, obs.wall_cls) if not c.startswith(_WALL_CLASSES)]
+    measured = measure_doors([(entities[m.id], m) for m in door_meshes], obs.filled, obs.filled_h,
+                             [g for g, _ in open_lines], [h for _, h in open_lines], floor_z)
     doorways = _doorways(measured, unit, origin, issues)
     seconds["doors"] = time.perf_counter() - t3
     labels = [Label(text, x - origin[0], y - origin[1], "IfcSpace", gid)
