@@ -97,10 +97,10 @@ class RemedyContext:
         self._turn_mask = None
 
     # -- geometry helpers ----------------------------------------------------------
-    def width_at(self, lx: float, ly: float):
+    def width_at(self, lx: float, ly: float, reach: float = 12.0):
         if self.index is None:
             return math.inf, None, None
-        return self.index.width_at(lx, ly)
+        return self.index.width_at(lx, ly, reach=reach)
 
     def clearance_at(self, lx: float, ly: float) -> float:
         if self.index is None:
@@ -371,7 +371,8 @@ def _circle_places(stretch: Any | None, ctx: RemedyContext, need: float,
         w, q1, q2 = ctx.width_at(float(cur[0]), float(cur[1]))      # onto the middle of the clear width
         if q1 is not None and q2 is not None and math.isfinite(w):
             mid = 0.5 * (np.asarray(q1, float) + np.asarray(q2, float))
-            if np.hypot(*(mid - cur)) <= 0.5 * w and stretch.buffer(ctx.map_cell).contains(shapely.Point(*mid)):
+            if (np.hypot(*(mid - cur)) <= 0.5 * w and np.hypot(*(mid - u)) <= cover
+                    and stretch.buffer(ctx.map_cell).contains(shapely.Point(*mid))):
                 cur = mid
     return [(*plan.to_drawing(float(c[0]), float(c[1])), need) for c in centres]
 
