@@ -54,6 +54,10 @@ FLOOR_BUILDUP_M = 0.10
 #: (passable with the leaf open; measured separately).
 _NOT_OBSTACLES = ("IfcFeatureElement", "IfcVirtualElement", "IfcDoor")
 _WALL_CLASSES = ("IfcWall", "IfcCurtainWall")
+#: Classes of the storey below that may reach up into this one (walls over two storeys, stairs
+#: and ramps coming up, railings, risers); its furniture, doors, windows and slabs cannot.
+_REACH_UP = ("IfcWall", "IfcCurtainWall", "IfcColumn", "IfcStair", "IfcStairFlight", "IfcRamp", "IfcRampFlight",
+             "IfcRailing", "IfcMember", "IfcPlate", "IfcBuildingElementProxy", "IfcDistributionElement")
 #: Classes ``inspect`` counts (subtypes included: IfcWall counts IfcWallStandardCase).
 MAIN_CLASSES = ("IfcBuildingStorey", "IfcWall", "IfcCurtainWall", "IfcDoor", "IfcWindow", "IfcSlab", "IfcColumn",
                 "IfcBeam", "IfcStair", "IfcRamp", "IfcRailing", "IfcCovering", "IfcFurnishingElement",
@@ -107,8 +111,10 @@ def _candidates(model, storeys: list[Storey], chosen: Storey | None, band_top: f
     picked: dict[int, object] = {}
     for s in storeys:
         if lowest - 1e-6 <= s.elevation_m < z0 + band_top:
+            lower = s.elevation_m < z0 - 1e-6
             for e in storey_elements(s.entity):
-                picked[e.id()] = e
+                if not lower or _is_a_any(e, _REACH_UP):
+                    picked[e.id()] = e
     for e in model.by_type("IfcElement"):
         if e.id() in picked:
             continue

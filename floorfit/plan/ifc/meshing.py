@@ -31,10 +31,17 @@ class Mesh:
 
 
 def available_cores() -> int:
+    """Cores this process may use that other work is not already using (at least one)."""
     try:
-        return max(1, len(os.sched_getaffinity(0)))
+        cores = max(1, len(os.sched_getaffinity(0)))
     except (AttributeError, OSError):  # pragma: no cover - not on Linux
-        return max(1, multiprocessing.cpu_count())
+        cores = max(1, multiprocessing.cpu_count())
+    try:
+        busy = os.getloadavg()[0]
+    except OSError:  # pragma: no cover - no load average on this platform
+        return cores
+    # on a machine already busy, more meshing threads only queue up behind the other work
+    return max(1, min(cores, int(round(cores - busy + 1.0))))
 
 
 def _settings():
