@@ -136,3 +136,37 @@ def test_site_heights_apply_to_drawing_layers_on_the_command_line(tmp_path):
     data = json.loads((out / "findings.json").read_text())
     (f,) = [f for f in data["findings"] if f["kind"] == "blocked"]
     assert f["cause"] == "height" and f["clear_height_m"] == pytest.approx(2.1)
+
+
+def shelf_passage(bottom: float) -> Plan:
+    """Two 5 × 4 m rooms joined by a 1.5 m wide, 2 m long passage (x 5..7, y 1.25..2.75) under a
+    shelf on layer A-SHLF that fills the passage from ``bottom`` up to 2.0 m (invented scenario:
+    a shelf a low robot drives under)."""
+    walls = [shapely.LineString([(0, 0), (5, 0), (5, 1.25), (7, 1.25), (7, 0), (12, 0), (12, 4), (7, 4),
+                                 (7, 2.75), (5, 2.75), (5, 4), (0, 4), (0, 0)])]
+    shelf = shapely.box(5.4, 1.25, 6.6, 2.75)
+    plan = Plan.from_geometries(walls=walls, solids=[shelf])
+    plan.wall_layers = np.array(["A-WALL"], dtype=object)
+    plan.solid_layers = np.array(["A-SHLF"], dtype=object)
+    return apply_height_ranges(plan, {"A-SHLF": (bottom, 2.0)})
+
+
+def test_under_ride_shelf_is_a_height_block_at_the_shelf():
+    # issue 16: the shelf starting 0.50 m above the floor stops a 1.2 m tall tug; the floor under it
+    # is open, so the answer is a blocked finding with cause height and the clear height, located
+    # at the shelf, not "separate parts of the drawing".
+    plan = shelf_passage(0.5)
+    stations = [Station("A", 2.5, 2.0), Station("B", 9.5, 2.0)]
+    low = ff.rectangle_vehicle(0.9, 0.6, height_m=0.35, name="under-ride robot")
+    tall = ff.rectangle_vehicle(0.9, 0.6, height_m=1.2, name="tug")
+    r = run_check(plan, low, stations, site=Site(**NO_CLEARANCE), heading_step_deg=5.0)
+    assert r.reachable["A"]["B"] and not [f for f in r.findings if f.kind == "blocked"]
+    r = run_check(plan, tall, stations, site=Site(**NO_CLEARANCE), heading_step_deg=5.0)
+    assert not r.reachable["A"]["B"]
+    (f,) = [f for f in r.findings if f.kind == "blocked"]
+    assert f.cause == "height"
+    assert f.clear_height_m == pytest.approx(0.50) and f.needed_height_m == pytest.approx(1.2)
+    assert "clear height 0.50 m, the vehicle needs 1.20 m" in f.summary
+    assert 5.0 - 0.5 <= f.x <= 7.0 + 0.5 and 1.25 <= f.y <= 2.75
+    assert f.cuts_off in (["A"], ["B"]) and r.cuts[("A", "B")] == [f.id]
+    assert not any("not connected even for a person" in n for n in r.notes)

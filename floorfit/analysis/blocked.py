@@ -15,6 +15,7 @@ import numpy as np
 import shapely
 
 from floorfit.analysis.context import CheckContext, ClearanceStage, Places, SliceStage
+from floorfit.analysis.envelope import outside_envelope
 from floorfit.analysis.findings import Finding
 from floorfit.analysis.naming import place_name
 from floorfit.analysis.passages import narrowest_width_near
@@ -79,6 +80,8 @@ def pinch_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, pla
         st_a = sorted({n for r in sa for n in region_stations.get(r, [])})
         st_b = sorted({n for r in sb for n in region_stations.get(r, [])})
         cut = st_b if len(st_b) <= len(st_a) else st_a
+        if not cut and outside_envelope(ctx.envelope, px, py, 3 * cell):
+            continue      # outside the building and cutting no station off: not part of the question
         cause = "width" if w < needed + slices.tolerance_m else "turn"
         clear_h = ctx.clear_height_near(px, py, vehicle.radius_m + 0.5)
         if clear_h is not None and cause == "turn":

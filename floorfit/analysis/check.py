@@ -70,15 +70,20 @@ def slice_stage(ctx: CheckContext) -> SliceStage:
 
 
 def clearance_stage(ctx: CheckContext) -> ClearanceStage:
-    """The floor clearance raster (5 cm cells, coarser on big sites) of obstacles a person meets."""
+    """The floor clearance raster (5 cm cells, coarser on big sites) of the obstacles standing on the floor.
+
+    Obstacles that start above the floor (an overhead duct, a shelf a low robot drives under)
+    leave the floor open: where they stop a vehicle, that is a ``blocked`` finding with cause
+    ``height`` at the obstacle, not a separation of the drawing.
+    """
     plan = ctx.plan
     x0, y0, x1, y1 = plan.local_bounds()
     pad = _RASTER_PAD_M
     bounds = (x0 - pad, y0 - pad, x1 + pad, y1 + pad)
     cell = choose_cell_size(bounds, 0.05)
     ctx.progress(f"clearance field ({cell * 100:.0f} cm cells)")
-    pw = plan.wall_heights[:, 0] < PERSON_HEADROOM_M
-    ps = plan.solid_heights[:, 0] < PERSON_HEADROOM_M
+    pw = plan.wall_heights[:, 0] <= 0.0
+    ps = plan.solid_heights[:, 0] <= 0.0
     field = clearance_field(plan.walls[pw], plan.solids[ps], bounds, cell)
     floor = max(ctx.site.person_width_m / 2.0 - 0.75 * cell, cell)
     return ClearanceStage(bounds=bounds, cell=cell, field=field, floor=floor)
@@ -124,7 +129,7 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     site = site or Site()
     validate_stations(plan, stations, site.path)
     ctx = CheckContext.build(plan, vehicle, stations, site, progress or _noop, workers,
-                             heading_step_deg or site.heading_step_deg)
+                             heading_step_deg if heading_step_deg is not None else site.heading_step_deg)
     cs = slice_stage(ctx)
     clear = clearance_stage(ctx)
     needed = min_width(vehicle.footprint)

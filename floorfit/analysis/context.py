@@ -19,6 +19,7 @@ import numpy as np
 import shapely
 from shapely.geometry import Point
 
+from floorfit.analysis.envelope import building_envelope
 from floorfit.analysis.passages import ObstacleIndex
 from floorfit.cspace.slices import SliceSet
 from floorfit.plan.model import Plan
@@ -50,6 +51,9 @@ class CheckContext:
     overhead_tree: shapely.STRtree | None = None
     #: notes for the report, in the order the stages add them
     notes: list[str] = field(default_factory=list)
+    #: the floor analysed (local frame; None: the whole drawing), see :mod:`floorfit.analysis.envelope`
+    envelope: Any = None
+    _met_tree: Any = field(default=None, repr=False)
 
     @classmethod
     def build(cls, plan: Plan, vehicle: Vehicle, stations: list[Station], site: Site,
@@ -58,12 +62,13 @@ class CheckContext:
         h = vehicle.height_m if vehicle.height_m is not None else math.inf
         ow, os_ = (wb > 0) & (wb < h), (sb > 0) & (sb < h)
         overhead = list(plan.walls[ow]) + list(plan.solids[os_])
+        st_local = {s.name: plan.to_local(s.x, s.y) for s in stations}
+        index = ObstacleIndex(plan.walls[wb <= 0], plan.solids[sb <= 0])
+        envelope = building_envelope(plan, site, list(index.geoms) + overhead, list(st_local.values()))
         return cls(plan=plan, vehicle=vehicle, stations=list(stations), site=site, progress=progress,
-                   workers=workers, heading_step_deg=heading_step_deg,
-                   st_local={s.name: plan.to_local(s.x, s.y) for s in stations},
-                   index=ObstacleIndex(plan.walls[wb <= 0], plan.solids[sb <= 0]),
+                   workers=workers, heading_step_deg=heading_step_deg, st_local=st_local, index=index,
                    overhead=overhead, overhead_bottom=np.concatenate([wb[ow], sb[os_]]),
-                   overhead_tree=shapely.STRtree(overhead) if overhead else None)
+                   overhead_tree=shapely.STRtree(overhead) if overhead else None, envelope=envelope)
 
     @property
     def station_names(self) -> list[str]:
@@ -73,6 +78,13 @@ class CheckContext:
     def extra_headings(self) -> list[float]:
         """Station headings the slices must include (degrees)."""
         return [s.heading_deg for s in self.stations if s.heading_deg is not None]
+
+    def met_tree(self) -> shapely.STRtree | None:
+        """Index of every obstacle the vehicle meets (floor-standing and overhead below its height), or None."""
+        if self._met_tree is None:
+            geoms = list(self.index.geoms if self.index is not None else []) + list(self.overhead)
+            self._met_tree = shapely.STRtree(geoms) if geoms else False
+        return self._met_tree or None
 
     def clear_height_near(self, x: float, y: float, radius: float) -> float | None:
         """Lowest bottom (m) of overhead obstacles the vehicle meets within ``radius`` of (x, y), or None."""

@@ -101,13 +101,48 @@ class CheckResult:
         all_ok = all(v for row in self.reachable.values() for v in row.values())
         return all_ok and not any(f.kind == "blocked" for f in self.findings)
 
+    def station_pairs(self) -> tuple[list[tuple[str, str]], int]:
+        """Station pairs not connected and the number of pairs (:func:`unconnected_station_pairs`)."""
+        return unconnected_station_pairs(self.reachable)
+
+
+def unconnected_station_pairs(reachable: dict[str, dict[str, Any]]) -> tuple[list[tuple[str, str]], int]:
+    """``(pairs not connected, number of pairs)``: the one way station pairs are counted everywhere.
+
+    A station pair is two different stations, counted once whichever comes first (sorted by
+    name); it is *not connected* when the vehicle cannot drive between them in at least one
+    direction (a forward-only train may manage one way only). Console, report, CSV/JSON
+    verdict, batch and compare all state "N of M station pairs not connected" from this.
+    """
+    names = sorted(reachable)
+    total, bad = 0, []
+    for i, a in enumerate(names):
+        for b in names[i + 1:]:
+            total += 1
+            if not (reachable[a].get(b, False) and reachable.get(b, {}).get(a, False)):
+                bad.append((a, b))
+    return bad, total
+
+
+def pairs_text(bad: int, total: int) -> str:
+    """``"3 of 10 station pairs not connected"``, the words every output uses."""
+    return f"{bad} of {total} station pair{'s' if total != 1 else ''} not connected"
+
+
+__all__ += ["unconnected_station_pairs", "pairs_text"]
+
 
 def rank_findings(findings: list[Finding]) -> list[Finding]:
-    """Order findings (what cuts off stations first, then by kind and place) and number them F1, F2, …"""
+    """Order findings and number them F1, F2, …: by kind (the order of ``FINDING_KINDS``), within a
+    kind what cuts off stations first (most stations first), then by place.
+
+    This is the report order too (:func:`floorfit.report.kinds.numbered_findings`), so the console's
+    F-numbers, the report's marker numbers, the CSV and the overlay all agree: Fn is number n.
+    """
     order = {"blocked": 0, "no-turn": 1, "tight": 2, "maneuver": 3}
 
     def key(f: Finding):
-        return (0 if f.cuts_off else 1, -len(f.cuts_off), order.get(f.kind, 9), round(f.x, 3), round(f.y, 3))
+        return (order.get(f.kind, 9), 0 if f.cuts_off else 1, -len(f.cuts_off), round(f.x, 3), round(f.y, 3))
 
     ranked = sorted(findings, key=key)
     for i, f in enumerate(ranked, 1):

@@ -17,16 +17,19 @@ from scipy import ndimage
 from shapely.geometry import Point, box
 
 from floorfit.analysis.context import CheckContext, ClearanceStage, SliceStage
+from floorfit.analysis.envelope import envelope_mask
 from floorfit.analysis.findings import Finding
 from floorfit.analysis.maneuvers import turnaround_circle
 from floorfit.analysis.naming import place_name
-from floorfit.analysis.turnability import heading_ranges, heading_raster, turn_region
+from floorfit.analysis.turnability import format_heading_ranges, heading_ranges, heading_raster, turn_region
 from floorfit.cspace.raster import fill_polygons
 
 __all__ = ["turnability_map", "noturn_findings", "cells_to_geometry", "MAP_MAX_CELLS"]
 
 #: The turnability map is sampled on at most this many cells (its cell size grows on big sites).
 MAP_MAX_CELLS = 400_000
+#: Motion modes that can spin in place (turn about the reference point without moving it).
+SPIN_MODES = ("differential", "omni")
 
 
 def cells_to_geometry(mask: np.ndarray, x0: float, y0: float, cell: float):
@@ -44,7 +47,8 @@ def cells_to_geometry(mask: np.ndarray, x0: float, y0: float, cell: float):
 def turnability_map(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, map_cell: float):
     """``(turnability dict for the report, raster, fits mask)``: heading counts, fits, rotates, free space.
 
-    Floor connected to the map's border (outside the drawing) is cleared unless a station lies there.
+    Floor connected to the map's border (outside the drawing) is cleared unless a station lies there,
+    and so is floor outside the building envelope (:mod:`floorfit.analysis.envelope`).
     """
     slices, stations = cs.slices, ctx.stations
     raster = heading_raster(slices, clear.bounds, map_cell)
@@ -52,12 +56,16 @@ def turnability_map(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, ma
     turnability = {"heading_count": {"x0": raster.x0, "y0": raster.y0, "cell_m": map_cell,
                                      "counts": counts, "n_headings": len(slices)}}
     outside = _exterior(counts > 0, raster, stations, ctx.st_local)
+    # floor outside the building envelope is not analysed (see floorfit.analysis.envelope)
+    outside |= ~envelope_mask(ctx.envelope, raster.x0, raster.y0, map_cell, counts.shape[1], counts.shape[0])
     counts = np.where(outside, 0, counts)
     turnability["heading_count"]["counts"] = counts
     fits = counts > 0
     turnability["fits"] = cells_to_geometry(fits, raster.x0, raster.y0, map_cell)
-    turnability["rotates"] = cells_to_geometry(counts == len(slices), raster.x0, raster.y0, map_cell) \
-        if len(slices) > 1 else shapely.Polygon()
+    # only a base that turns on the spot can spin in place (a car-steered vehicle never can,
+    # however much room it has): no "spins" area at all for the others
+    turnability["rotates"] = (cells_to_geometry(counts == len(slices), raster.x0, raster.y0, map_cell)
+                              if len(slices) > 1 else shapely.Polygon()) if ctx.vehicle.mode in SPIN_MODES else None
     # the free space (reference point) at one representative heading, for the CAD overlay
     rep_h = next((s.heading_deg for s in stations if s.heading_deg is not None), 0.0)
     k_rep = slices.cells.index_of(rep_h)
@@ -137,7 +145,7 @@ def _noturn_finding(ctx: CheckContext, slices, raster, mask, fits):
         if mask[iy, ix]:
             inside.append(s.name)
     dead = mouths <= 1
-    rng = ", ".join(f"{a:g}° to {b:g}°" for a, b in ranges)
+    rng = format_heading_ranges(ranges)
     what = "dead end: the vehicle must back out the way it came" if dead else \
         "the vehicle can pass through but cannot reverse its heading inside"
     summary = f"{length:.1f} m stretch where the vehicle cannot turn around ({what}); it fits only at headings {rng}"

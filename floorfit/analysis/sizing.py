@@ -361,7 +361,7 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
     validate_stations(plan, stations, site.path)
 
     current, make = vehicle_family(vehicle, vary)
-    step = heading_step_deg or site.heading_step_deg or DEFAULT_SIZING_STEP_DEG
+    step = next((v for v in (heading_step_deg, site.heading_step_deg) if v is not None), DEFAULT_SIZING_STEP_DEG)
     extra = [s.heading_deg for s in stations if s.heading_deg is not None]
     cells = choose_headings(plan, vehicle, heading_step_deg=step, extra_headings=extra)
     obstacles = obstacles_for(plan, vehicle)

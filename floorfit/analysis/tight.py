@@ -4,6 +4,13 @@ The same place-and-join analysis as for blocked findings runs for the vehicle ou
 by the site's required clearance (a second slice set); a join of the grown vehicle that the
 plain vehicle (with its margin) makes is a tight spot, and a station the plain vehicle serves
 but the grown one does not is a tight station. Drawing frame for findings, metres.
+
+The clearance a finding states is measured exactly where it stands (:func:`clearance_at`):
+the largest distance between the vehicle outline and the obstacles it meets, over the
+headings at which the vehicle fits there. A place or station where that is at least the
+required clearance is not tight (the grown slices err towards "tight" by their tolerance),
+so a tight finding never states a clearance at or above the requirement, and it states a
+clear width only when the width measured there could hold the vehicle at all.
 """
 
 from __future__ import annotations
@@ -15,14 +22,16 @@ import numpy as np
 import shapely
 
 from floorfit.analysis.context import CheckContext, ClearanceStage, Places, SliceStage
+from floorfit.analysis.envelope import outside_envelope
 from floorfit.analysis.findings import Finding
 from floorfit.analysis.naming import place_name
 from floorfit.analysis.passages import min_width, narrowest_width_near
 from floorfit.analysis.places import find_places, locate_join, plain_regions, side_geometry, sides_of_events
+from floorfit.cspace.headings import arc_deg
 from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.slices import build_slices, choose_headings
 
-__all__ = ["tight_findings"]
+__all__ = ["tight_findings", "clearance_at"]
 
 
 def tight_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, places: Places,
@@ -35,12 +44,14 @@ def tight_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, pla
     ctx.progress(f"clearance {req:.2f} m")
     grown = replace(vehicle, outline=vehicle.outline.buffer(req, join_style="mitre", mitre_limit=10.0),
                     margin_m=0.0, name=vehicle.name + " + clearance")
-    gslices = build_slices(plan, grown, cells=choose_headings(plan, grown, heading_step_deg=ctx.heading_step_deg,
+    # the check's own step: the grown vehicle's split is confirmed by exact clearances below
+    step = ctx.heading_step_deg or cs.cells.step_deg
+    gslices = build_slices(plan, grown, cells=choose_headings(plan, grown, heading_step_deg=step,
                                                                 extra_headings=ctx.extra_headings),
                            workers=ctx.workers, obstacles=cs.obstacles)
     gplaces = find_places(ctx, gslices, build_roadmap(gslices), clear.field, clear.floor)
     outline_w = min_width(vehicle.outline)
-    findings = _tight_stations(ctx, places, gplaces, outline_w, req)
+    findings = _tight_stations(ctx, cs, places, gplaces, outline_w, req)
     blocked_xy = [(f.x, f.y) for f in blocked if f.kind == "blocked"]
     for ev, (sa, sb) in zip(gplaces.events, sides_of_events(gplaces.events, list(gplaces.seeds))):
         # keep only joins the plain vehicle makes: both sides in one plain region
@@ -58,31 +69,86 @@ def tight_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, pla
         dx, dy = plan.to_drawing(px, py)
         if any(math.hypot(dx - bx, dy - by) < 1.0 for bx, by in blocked_xy):
             continue
-        clearance = max(0.0, (w - outline_w) / 2.0)
-        summary = (f"passable, but with {clearance:.2f} m clearance each side where the site asks "
-                   f"{req:.2f} m ({site.clearance_reference}); clear width {w:.2f} m")
+        if outside_envelope(ctx.envelope, px, py, 3 * clear.cell):
+            continue      # outside the building envelope: not analysed
+        width = w if w >= outline_w - 1e-9 else None      # a width below the vehicle's is not this passage's
+        # the clearance found where the vehicle passes: the best pose with its reference point on
+        # the narrowest cut (which every way through crosses), or at the join itself
+        pts = [(px, py), (lx, ly)]
+        if width is not None and q1 is not None:
+            t = np.linspace(0.0, 1.0, 41)[1:-1, None]
+            pts += [tuple(p) for p in (1 - t) * np.asarray(q1) + t * np.asarray(q2)]
+        clearance = clearance_at(ctx, cs, np.asarray(pts))
+        if clearance is None or clearance >= req - 1e-9:
+            continue        # the grown vehicle's split is within the slices' tolerance: not tight
+        summary = (f"passable, but with {clearance:.2f} m clearance where the site asks "
+                   f"{req:.2f} m ({site.clearance_reference})")
+        if width is not None:
+            summary += f"; clear width {width:.2f} m"
         findings.append(Finding(kind="tight", cause="width" if not overlap else "turn", x=dx, y=dy,
-                                label=place_name(plan, px, py), summary=summary, clear_width_m=round(w, 4),
+                                label=place_name(plan, px, py), summary=summary,
+                                clear_width_m=None if width is None else round(width, 4),
                                 needed_width_m=round(outline_w + 2 * req, 4), clearance_m=round(clearance, 4),
                                 required_clearance_m=req, cuts_off=[],  # passable: cuts nothing off
-                                geometry=shapely.LineString([q1, q2]) if q1 is not None and not np.allclose(q1, q2)
-                                else None))
+                                geometry=shapely.LineString([q1, q2]) if width is not None and q1 is not None
+                                and not np.allclose(q1, q2) else None))
     return findings
 
 
-def _tight_stations(ctx: CheckContext, places: Places, gplaces: Places, outline_w: float,
+def clearance_at(ctx: CheckContext, cs: SliceStage, points, heading_deg: float | None = None,
+                 heading_tol_deg: float = 180.0) -> float | None:
+    """Largest clearance (m) between the vehicle outline and the obstacles it meets with its
+    reference point at one of the local ``points`` ((x, y) or (N, 2)), over the slice headings at
+    which it fits there (within ``heading_tol_deg`` of ``heading_deg`` when given); None where
+    it fits at no such pose.
+
+    Exact for each pose (shapely's polygon distance); the outline is the vehicle without its
+    safety margin, as the clearance a site asks for is measured from the vehicle itself.
+    """
+    slices = cs.slices
+    pts = np.asarray(points, dtype=float).reshape(-1, 2)
+    hs = np.asarray(slices.cells.headings, dtype=float)
+    if heading_deg is not None:
+        hs = hs[np.abs(arc_deg(hs, heading_deg)) <= heading_tol_deg + 1e-9]
+    if not len(hs) or not len(pts):
+        return None
+    poses = np.c_[np.repeat(pts, len(hs), axis=0), np.tile(hs, len(pts))]
+    poses = poses[slices.are_free(poses)]
+    if not len(poses):
+        return None
+    tree = ctx.met_tree()
+    if tree is None:
+        return math.inf
+    ring = np.asarray(ctx.vehicle.outline.exterior.coords)
+    t = np.radians(poses[:, 2])[:, None]
+    x = np.cos(t) * ring[None, :, 0] - np.sin(t) * ring[None, :, 1] + poses[:, 0:1]
+    y = np.sin(t) * ring[None, :, 0] + np.cos(t) * ring[None, :, 1] + poses[:, 1:2]
+    n, k = x.shape
+    polys = shapely.polygons(shapely.linearrings(np.c_[x.ravel(), y.ravel()], indices=np.repeat(np.arange(n), k)))
+    _, dist = tree.query_nearest(polys, return_distance=True, all_matches=False)
+    return float(np.max(dist)) if len(dist) else math.inf
+
+
+def _tight_stations(ctx: CheckContext, cs: SliceStage, places: Places, gplaces: Places, outline_w: float,
                     req: float) -> list[Finding]:
-    """Stations the plain vehicle serves but the vehicle grown by the clearance does not."""
+    """Stations where the vehicle fits but the vehicle grown by the clearance does not, and the
+    clearance measured at the station is below the requirement."""
     out = []
     for s in ctx.stations:
         if places.station_places[s.name] and not gplaces.station_places.get(s.name):
             lx, ly = ctx.st_local[s.name]
+            clearance = clearance_at(ctx, cs, (lx, ly), s.heading_deg, s.heading_tolerance_deg)
+            if clearance is None or clearance >= req - 1e-9:
+                continue
             w, px, py, q1, q2 = narrowest_width_near(ctx.index, lx, ly, radius=0.3)
-            clearance = max(0.0, (w - outline_w) / 2.0)
+            width = w if w >= outline_w - 1e-9 else None
+            summary = (f"the vehicle fits at station {s.name}, but with at most {clearance:.2f} m clearance "
+                       f"where the site asks {req:.2f} m ({ctx.site.clearance_reference})")
+            if width is not None:
+                summary += f"; clear width {width:.2f} m"
             out.append(Finding(
                 kind="tight", cause="station", x=s.x, y=s.y, label=place_name(ctx.plan, lx, ly),
-                summary=(f"station {s.name} is served, but with about {clearance:.2f} m clearance each side "
-                         f"where the site asks {req:.2f} m ({ctx.site.clearance_reference}); clear width {w:.2f} m"),
-                clear_width_m=round(w, 4), needed_width_m=round(outline_w + 2 * req, 4),
-                clearance_m=round(clearance, 4), required_clearance_m=req, cuts_off=[s.name]))
+                summary=summary, clear_width_m=None if width is None else round(width, 4),
+                needed_width_m=round(outline_w + 2 * req, 4),
+                clearance_m=round(clearance, 4), required_clearance_m=req, cuts_off=[]))
     return out

@@ -27,7 +27,8 @@ from floorfit.cspace.minkowski import ObstacleSet, cobstacle_pieces
 from floorfit.cspace.raster import fill_polygons
 from floorfit.cspace.slices import SliceSet
 
-__all__ = ["HeadingRaster", "heading_raster", "turn_region", "heading_ranges"]
+__all__ = ["HeadingRaster", "heading_raster", "turn_region", "heading_ranges", "format_heading_ranges",
+           "NARROW_RANGE_DEG"]
 
 
 @dataclass
@@ -82,6 +83,11 @@ def turn_region(obstacles: ObstacleSet, domain: Polygon, radius: float, sides: i
     return shapely.difference(domain, blocked)
 
 
+#: A free heading range narrower than this (degrees) is the narrow cell around one special
+#: heading (see :data:`floorfit.cspace.headings.GUARD_DEG`) and is stated as that heading.
+NARROW_RANGE_DEG = 0.25
+
+
 def heading_ranges(free_headings: np.ndarray, headings_deg: np.ndarray, below: np.ndarray,
                    above: np.ndarray) -> list[tuple[float, float]]:
     """Contiguous arcs (start, end in degrees, CCW) covered by the cells of the free slices."""
@@ -107,7 +113,19 @@ def heading_ranges(free_headings: np.ndarray, headings_deg: np.ndarray, below: n
     for r in out:
         a = float(headings_deg[r[0]] - below[r[0]])
         b = float(headings_deg[r[-1]] + above[r[-1]])
+        if b - a < NARROW_RANGE_DEG:
+            # only the narrow cell of a wall direction (or a docking heading) is free: the vehicle
+            # fits when aligned with it; the cell's edges are an artefact of the slicing
+            h = float(headings_deg[r[len(r) // 2]])
+            h = (h + 180.0) % 360.0 - 180.0
+            ranges.append((round(h, 2), round(h, 2)))
+            continue
         a = (a + 180.0) % 360.0 - 180.0
         b = (b + 180.0) % 360.0 - 180.0
         ranges.append((round(a, 2), round(b, 2)))
     return ranges
+
+
+def format_heading_ranges(ranges) -> str:
+    """``"-99.5° to -81.5°, 90° (aligned only)"``: heading ranges in words (a single heading when from = to)."""
+    return ", ".join(f"{a:g}° (aligned only)" if a == b else f"{a:g}° to {b:g}°" for a, b in ranges)

@@ -85,11 +85,11 @@ def summary_text(result, written) -> str:
     lines = []
     verdict = "PASS" if result.passed else "FAIL"
     n = len(result.stations)
-    pairs = [(a, b) for a in result.reachable for b in result.reachable[a] if a < b]
-    bad = [(a, b) for a, b in pairs if not result.reachable[a][b]]
+    from floorfit.analysis.findings import pairs_text
+
+    bad, total = result.station_pairs()
     lines.append(f"{verdict}: {result.vehicle.name} in {Path(str(result.plan.source)).name} — "
-                 f"{n} stations, {len(bad)} of {len(pairs)} station pairs not connected, "
-                 f"{len(result.findings)} findings")
+                 f"{n} stations, {pairs_text(len(bad), total)}, {len(result.findings)} findings")
     for f in result.findings:
         where = f" [{f.label}]" if f.label else ""
         lines.append(f"  {f.id} {f.kind:8s} at ({f.x:.2f}, {f.y:.2f}) m{where}: {f.summary}")

@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from floorfit import __version__
+from floorfit.analysis.findings import pairs_text
 from floorfit.report.compare_html import stable_json, write_bytes_atomic
 from floorfit.report.kinds import KIND_STYLES
 
@@ -61,7 +62,8 @@ def _cell_html(c: dict) -> str:
                           for k, n in c["findings"].items() if k in KIND_STYLES and n)
         parts.append(f"<div>{chips or 'no findings'}</div>")
         if c["unreachable_pairs"]:
-            parts.append(f'<div class="small">{c["unreachable_pairs"]} station pair(s) not connected</div>')
+            n = c["stations"] or 0
+            parts.append(f'<div class="small">{_e(pairs_text(c["unreachable_pairs"], n * (n - 1) // 2))}</div>')
     parts.append(_margin_text(c.get("sizing")))
     if c["report"]:
         parts.append(f'<div><a href="{_e(c["report"])}">report</a></div>')

@@ -15,6 +15,7 @@ Site file (TOML, metres and degrees, drawing frame)::
     [analysis]
     heading_step = 2.0              # degrees (default: from the vehicle size)
     person_width = 0.5              # metres a person needs to walk through (default 0.5)
+    envelope = "auto"               # floor analysed: "auto" (hull of the obstacles), "none", or [[x, y], ...]
 
     [layers]                        # layer-name pattern → role (see the import notes)
     "A-EQPM-RACK" = "solid"
@@ -69,7 +70,7 @@ _TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks"
 _REPORT = ("routes",)
 _STATION = ("x", "y", "heading", "heading_tolerance")
 _CLEARANCE = ("required", "reference")
-_ANALYSIS = ("heading_step", "person_width")
+_ANALYSIS = ("heading_step", "person_width", "envelope")
 #: Keys of the [project] table (report cover and title blocks), all optional.
 PROJECT_KEYS = ("name", "number", "client", "revision", "prepared_by", "date")
 _PROJECT_TEXT_MAX = 200
@@ -90,6 +91,8 @@ class Site:
     person_width_m: float = DEFAULT_PERSON_WIDTH_M
     heights: dict[str, tuple[float, float]] = field(default_factory=dict)
     routes: list[tuple[str, str]] = field(default_factory=list)
+    #: floor the check analyses: "auto" (hull of the obstacles and stations), "none" (all), or a polygon
+    envelope: Any = "auto"
     project: dict[str, str] = field(default_factory=dict)     # [project] fields given (text)
 
 
@@ -163,10 +166,30 @@ def read_site(path: str | Path) -> Site:
         raise SiteError("[analysis] must be a table", src, "analysis")
     check_keys(analysis, _ANALYSIS, src, "analysis.", SiteError)
     site.heading_step_deg = get_number(analysis, "heading_step", src, "analysis.", SiteError,
-                                       minimum=0.1, maximum=90.0)
+                                       minimum=0.1, maximum=45.0)
     site.person_width_m = get_number(analysis, "person_width", src, "analysis.", SiteError,
                                      default=DEFAULT_PERSON_WIDTH_M, minimum=0.1, maximum=3.0)
+    site.envelope = _read_envelope(analysis.get("envelope", "auto"), src)
     return site
+
+
+def _read_envelope(value: Any, src: str):
+    """``[analysis] envelope``: "auto", "none", or a polygon [[x, y], ...] (drawing frame, metres)."""
+    where = "analysis.envelope"
+    if isinstance(value, str):
+        if value not in ("auto", "none"):
+            raise SiteError(f'expected "auto", "none" or a polygon [[x, y], ...], got {value!r}', src, where)
+        return value
+    if not (isinstance(value, list) and len(value) >= 3 and all(
+            isinstance(p, list) and len(p) == 2 and all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                                     and math.isfinite(v) for v in p) for p in value)):
+        raise SiteError("expected a polygon of at least three [x, y] points in metres", src, where)
+    import shapely
+
+    poly = shapely.Polygon([(float(x), float(y)) for x, y in value])
+    if not poly.is_valid or poly.area <= 0:
+        raise SiteError("the envelope polygon must be simple (no self-crossing) and enclose an area", src, where)
+    return [(float(x), float(y)) for x, y in value]
 
 
 def _read_project(table: Any, src: str) -> dict[str, str]:

@@ -219,8 +219,9 @@ def _verdict(result: Any, numbers: dict[str, int]) -> str:
         word = "Does not pass"
         reasons = []
         if pairs:
-            reasons.append(f"{len(pairs)} station connection{'s' if len(pairs) != 1 else ''} "
-                           "cannot be driven")
+            from floorfit.analysis.findings import pairs_text, unconnected_station_pairs
+            bad, total = unconnected_station_pairs(result.reachable)
+            reasons.append(pairs_text(len(bad), total))
         if counts.get("blocked"):
             reasons.append(f"{counts['blocked']} blocked place{'s' if counts['blocked'] != 1 else ''}")
         line = "; ".join(reasons).capitalize() + "." if reasons else "See the findings below."
@@ -301,8 +302,8 @@ def _numbers_cell(f: Any) -> str:
     if f.clearance_m is not None or f.required_clearance_m is not None:
         parts.append(f"clearance {_m(f.clearance_m)}, asked {_m(f.required_clearance_m)}")
     if f.heading_ranges_deg:
-        ranges = ", ".join(f"{a:g}° to {b:g}°" for a, b in f.heading_ranges_deg)
-        parts.append(f"headings {ranges}")
+        from floorfit.analysis.turnability import format_heading_ranges
+        parts.append(f"headings {format_heading_ranges(f.heading_ranges_deg)}")
     return "<br>".join(_e(p) for p in parts) or "—"
 
 

@@ -157,7 +157,16 @@ def _verdict(result: Any) -> dict[str, Any]:
         "finding_count": len(result.findings),
         "findings_by_kind": counts,
         "unreachable_pair_count": len(unreachable_pairs(result)),
+        **_pair_counts(result),
     }
+
+
+def _pair_counts(result: Any) -> dict[str, int]:
+    """Station pairs as the console and the report count them (see ``unconnected_station_pairs``)."""
+    from floorfit.analysis.findings import unconnected_station_pairs
+
+    bad, total = unconnected_station_pairs(result.reachable)
+    return {"station_pair_count": total, "station_pairs_not_connected": len(bad)}
 
 
 def _station(station: Any) -> dict[str, Any]:
