@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import re
 
 from floorfit.report.progress import Progress
 
@@ -21,7 +22,7 @@ def test_terminal_gets_one_updating_line():
     p.done()
     text = out.getvalue()
     assert "\n" not in text                       # never scrolls
-    assert "\rfloorfit: [1/2] building slices" in text and "72/72" in text
+    assert "\rfloorfit: [1/2] building slices" in text and "building slices 72/72 (" in text
     assert "\rfloorfit: [2/2] writing" in text
     assert text.endswith("\r")                    # line cleared at the end
 
@@ -34,7 +35,9 @@ def test_log_file_gets_plain_stage_lines():
     p.stage("writing")
     p.done("done")
     lines = out.getvalue().splitlines()
-    assert lines[:2] == ["floorfit: [1/2] building slices", "floorfit: [2/2] writing"]
+    # each stage line carries the time elapsed since the start
+    assert re.fullmatch(r"floorfit: \[1/2\] building slices \(\d+\.\d s\)", lines[0])
+    assert re.fullmatch(r"floorfit: \[2/2\] writing \(\d+\.\d s\)", lines[1])
     assert lines[2].startswith("floorfit: done (") and "\r" not in out.getvalue()
 
 
@@ -45,3 +48,11 @@ def test_quiet_prints_nothing():
         p.update(1, 2)
         p.done("finished")
         assert out.getvalue() == ""
+
+
+def test_a_progress_is_a_stage_callback_with_counts():
+    out = io.StringIO()
+    p = Progress(stream=out)
+    p("roadmap")                                  # what run_check's progress= callback does
+    assert out.getvalue().startswith("floorfit: roadmap (") and callable(p.update)
+    assert p.elapsed_s >= 0.0

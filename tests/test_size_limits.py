@@ -18,7 +18,11 @@ def test_too_many_edge_slices_gives_advice(monkeypatch):
         run_check(plan, ff.rectangle_vehicle(1, 0.5), [Station("a", 1, 1)], heading_step_deg=5.0)
     # 4 edges × 72 uniform slices plus the guarded wall-direction slices
     assert str(exc.value).startswith("site.dxf: 4 obstacle edges × ")
-    assert "use a coarser --heading-step (e.g. 15°) or crop with --window" in str(exc.value)
+    # the advice is computed: at 30° the run has 12 uniform slices and 8 guards beside the four
+    # wall directions (which are uniform ones), 4 × 20 = 80 ≤ 100; at 22.5°, 16 + 8 = 24 slices, 96 ≤ 100
+    assert "use a coarser --heading-step (e.g. 22.5°) or crop with --window" in str(exc.value)
+    # and the advice works: the run it names is accepted
+    run_check(plan, ff.rectangle_vehicle(1, 0.5), [Station("a", 1, 1)], heading_step_deg=22.5, quick=True)
 
 
 def test_too_many_edges(monkeypatch):
@@ -26,3 +30,29 @@ def test_too_many_edges(monkeypatch):
     plan = Plan.from_geometries(walls=[shapely.box(0, 0, 10, 10)], source="big.dxf")
     with pytest.raises(LimitExceeded, match=r"^big.dxf: the plan has 4 obstacle edges, above the limit of 3"):
         run_check(plan, ff.rectangle_vehicle(1, 0.5), [Station("a", 1, 1)])
+
+
+def test_too_many_edges_advises_a_window_the_limit_accepts(monkeypatch):
+    # 50 separate squares of 4 edges each in a row, 10 m apart: 200 edges
+    walls = [shapely.box(10 * i, 0, 10 * i + 1, 1).exterior for i in range(50)]
+    plan = Plan.from_geometries(walls=walls, source="row.dxf")
+    monkeypatch.setattr(limits, "MAX_EDGES", 40)
+    with pytest.raises(LimitExceeded) as exc:
+        run_check(plan, ff.rectangle_vehicle(1, 0.5), [Station("a", 245.5, 0.5)])
+    text = str(exc.value)
+    assert "--window " in text
+    window = tuple(float(v) for v in text.split("--window ")[1].split(" ")[0].split(","))
+    x0, y0, x1, y1 = window
+    assert x0 < 245.5 < x1 and y0 <= 0.0 and y1 >= 1.0      # around the middle, the whole height
+    cropped = [w for w in walls if shapely.box(*window).intersects(w)]
+    assert 4 * len(cropped) <= 40                           # what the limit accepts
+
+
+def test_advised_step_is_the_finest_the_limit_accepts():
+    # without a slice count: uniform slices plus at most 30 wall-direction and pose slices
+    assert limits.advised_step_deg(10, None) == 1.0
+    step = limits.advised_step_deg(40_000)
+    assert 40_000 * (round(360 / step) + 30) <= limits.MAX_EDGE_SLICES
+    finer = limits.ADVICE_STEPS_DEG[limits.ADVICE_STEPS_DEG.index(step) - 1]
+    assert 40_000 * (round(360 / finer) + 30) > limits.MAX_EDGE_SLICES
+    assert limits.advised_step_deg(10 ** 9) is None

@@ -31,12 +31,14 @@ def add_arguments(p) -> None:
     p.add_argument("--goal", required=True, metavar="X,Y,HEADING", help="goal pose (drawing frame, m, deg)")
     p.add_argument("--heading-step", type=float, metavar="DEG",
                    help="uniform heading step in degrees (default: chosen from the vehicle size)")
-    p.add_argument("--workers", type=int, default=1, metavar="N", help="processes for the slices (default 1)")
+    p.add_argument("--workers", type=int, default=None, metavar="N",
+                   help="processes for the slices (default: all cores; the answer is the same for any number)")
     p.add_argument("--max-expansions", type=int, metavar="N",
                    help="car search: node expansions before giving up (default 30000)")
     p.add_argument("--time-limit", type=float, metavar="S",
                    help="car search: seconds before giving up (default 30)")
     p.add_argument("--json", metavar="OUT.json", help="write the answer as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress output")
 
 
 def _limits(args):
@@ -58,16 +60,34 @@ def _limits(args):
 
 
 def run(args) -> int:
+    from floorfit.cspace.roadmap import build_roadmap
+    from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for, pool_size
     from floorfit.motion.route_query import NOT_FOUND_WITHIN_LIMITS, find_route
+    from floorfit.report.progress import Progress
     from floorfit.vehicles.rigid import load_vehicle
 
     start = parse_pose(args.start, "--start")
     goal = parse_pose(args.goal, "--goal")
     limits = _limits(args)
     vehicle = load_vehicle(args.vehicle)
+    progress = Progress(quiet=getattr(args, "quiet", False))
     plan = load_plan_from_args(args)
+    # after reading, so that bad input still gives one line on standard error
+    progress.stage(f"drawing read: {plan.obstacle_count} obstacles")
+    # the slices find_route would build (start and goal headings get slices of their own),
+    # built here so that each stage can be reported
+    cells = choose_headings(plan, vehicle, heading_step_deg=args.heading_step, extra_headings=(start[2], goal[2]))
+    obstacles = obstacles_for(plan, vehicle)
+    processes = pool_size(obstacles, len(cells), args.workers)
+    progress.stage(f"slices: {len(cells)} headings on {processes} process{'es' if processes > 1 else ''}")
+    slices = build_slices(plan, vehicle, cells=cells, workers=args.workers, obstacles=obstacles,
+                          progress=progress.update)
+    progress.stage("roadmap")
+    roadmap = build_roadmap(slices)
+    progress.stage("route search (a failed search also builds the optimistic slices)")
     result = find_route(plan, vehicle, start, goal, heading_step_deg=args.heading_step, workers=args.workers,
-                        limits=limits)
+                        limits=limits, slices=slices, roadmap=roadmap)
+    progress.done()
     data = result.to_dict()
     data["plan"] = str(args.plan)
     data["vehicle"] = vehicle.describe()

@@ -26,7 +26,8 @@ def add_station_arguments(p) -> None:
     p.add_argument("--station", action="append", default=[], metavar="NAME=X,Y[,HEADING]",
                    help="a station (drawing frame, metres; heading in degrees if docking); repeatable")
     p.add_argument("--heading-step", type=float, metavar="DEG", help="uniform heading step, degrees")
-    p.add_argument("--workers", type=int, default=1, metavar="N", help="processes for the slices (default 1)")
+    p.add_argument("--workers", type=int, default=None, metavar="N",
+                   help="processes for the slices (default: all cores; the answer is the same for any number)")
     p.add_argument("--quiet", action="store_true", help="no progress output")
 
 

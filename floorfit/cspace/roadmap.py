@@ -46,15 +46,24 @@ def build_roadmap(slices: SliceSet) -> nx.Graph:
         return G
     rho = slices.vehicle.radius_m
     pairs = range(n) if n > 2 else range(1)
+    twins = slices.twins
+    done: dict[tuple[int, int], tuple] = {}
     for k in pairs:
         k2 = (k + 1) % n
         a, b = slices.components[k], slices.components[k2]
         if not len(a) or not len(b):
             continue
-        ia, ib = slices.tree(k2).query(a, predicate="intersects")
+        # slices sharing their free space with twins (half-turn symmetric footprints): the
+        # overlaps of the twin pair are the same geometry
+        key = (int(twins[k]), int(twins[k2])) if twins is not None else (k, k2)
+        if key in done:
+            ia, ib, zones = done[key]
+        else:
+            ia, ib = slices.tree(k2).query(a, predicate="intersects")
+            zones = shapely.intersection(a[ia], b[ib]) if len(ia) else None
+            done[key] = (ia, ib, zones)
         if not len(ia):
             continue
-        zones = shapely.intersection(a[ia], b[ib])
         turn = float(arc_deg(slices.cells.headings[k], slices.cells.headings[k2]))
         w = rho * math.radians(abs(turn)) + 1e-6
         for i, j, z in zip(ia, ib, zones):

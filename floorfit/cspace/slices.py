@@ -719,17 +719,22 @@ def _init_pool_worker(obstacles, domain, labels=None):
 
 
 def run_slice_jobs(obstacles: ObstacleSet, jobs: list, domain: Polygon, labels: np.ndarray | None,
-                   workers: int | None = 1, progress: Callable[[int, int], None] | None = None) -> list[np.ndarray]:
+                   workers: int | None = 1, progress: Callable[[int, int], None] | None = None,
+                   processes: int | None = None) -> list[np.ndarray]:
     """Free-space components of every job of a :class:`SliceRecipe`, on ``workers`` processes (None: all cores).
 
     Each slice is computed by the same function whichever process runs it, so the result is
-    the same for any number of workers. Small runs (below :data:`POOL_MIN_WORK`) stay in this
-    process. ``progress(done, total)`` is called as slices complete. Ctrl-C stops the pool
-    and raises KeyboardInterrupt here.
+    the same for any number of workers. Small runs (below :data:`POOL_MIN_WORK`, see
+    :func:`pool_size`) stay in this process; ``processes`` overrides that choice.
+    ``progress(done, total)`` is called as slices complete. Ctrl-C stops the pool and raises
+    KeyboardInterrupt here.
     """
-    n_workers = min(worker_count(workers), max(1, len(jobs)))
+    n_workers = pool_size(obstacles, len(jobs), workers) if processes is None else max(1, int(processes))
+    n_workers = min(n_workers, max(1, len(jobs)))
     total = len(jobs)
-    if n_workers > 1 and len(jobs) >= 8 and obstacles.piece_count * len(jobs) >= POOL_MIN_WORK:
+    if progress is not None:
+        progress(0, total)
+    if n_workers > 1:
         pool = ProcessPoolExecutor(max_workers=n_workers, initializer=_init_pool_worker,
                                    initargs=(obstacles, domain, labels))
         try:
@@ -754,7 +759,8 @@ def run_slice_jobs(obstacles: ObstacleSet, jobs: list, domain: Polygon, labels: 
 
 
 def pool_size(obstacles: ObstacleSet, n_jobs: int, workers: int | None) -> int:
-    """Processes :func:`run_slice_jobs` will use for ``n_jobs`` slices of ``obstacles``."""
+    """Processes to use for ``n_jobs`` slices of ``obstacles`` with ``workers`` asked for (None: all cores):
+    1 for small runs (fewer than 8 slices, or below :data:`POOL_MIN_WORK` pieces × slices)."""
     n = min(worker_count(workers), max(1, n_jobs))
     return n if n > 1 and n_jobs >= 8 and obstacles.piece_count * n_jobs >= POOL_MIN_WORK else 1
 
@@ -842,10 +848,11 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
     # a footprint symmetric under a half turn: headings h and h + 180° share one slice
     twin = half_turn_twins(cells, recipe.jobs)
     own, jobs = shared_jobs(recipe.jobs, twin)
-    done = dict(zip(own.tolist(), run_slice_jobs(obstacles, jobs, domain, labels, workers, progress)))
+    processes = pool_size(obstacles, len(cells), workers)
+    done = dict(zip(own.tolist(), run_slice_jobs(obstacles, jobs, domain, labels, workers, progress, processes)))
     comps = [done[k] if twin[k] == k else done[int(twin[k])].copy() for k in range(len(twin))]
     grow = recipe.grow
     return SliceSet(plan=plan, vehicle=vehicle, cells=cells, components=comps,
                     grow_m=grow if bound == "sound" else -grow, bound=bound,
                     tolerance_m=recipe.tolerance, domain=domain, twins=twin,
-                    workers_used=pool_size(obstacles, len(jobs), workers))
+                    workers_used=min(processes, max(1, len(jobs))))

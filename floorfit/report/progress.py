@@ -2,7 +2,8 @@
 
 On a terminal it keeps one line up to date (``\\r``); when standard error is not a
 terminal (a log file, CI) it prints one plain line per stage instead; with
-``quiet=True`` it prints nothing.
+``quiet=True`` it prints nothing. Every stage line carries the time elapsed since the
+run started, so a log shows where the time went.
 """
 
 from __future__ import annotations
@@ -16,6 +17,10 @@ __all__ = ["Progress"]
 
 class Progress:
     """Stages of a run with an optional count inside each.
+
+    A Progress is also a callable: ``progress("name")`` starts a stage, so it can be passed
+    wherever a ``progress(message)`` callback is expected; code that finds an ``update``
+    attribute on the callback may report counts through it.
 
     >>> import io
     >>> p = Progress(stream=io.StringIO())
@@ -37,8 +42,19 @@ class Progress:
         self._started = time.monotonic()
         self._last_draw = 0.0
 
+    def __call__(self, name: str) -> None:
+        self.stage(name)
+
+    @property
+    def elapsed_s(self) -> float:
+        """Seconds since this progress display was created."""
+        return time.monotonic() - self._started
+
     def _counter(self) -> str:
         return f"[{self.index}/{self.total}] " if self.total else ""
+
+    def _clock(self) -> str:
+        return f" ({self.elapsed_s:.1f} s)"
 
     def _draw(self, text: str) -> None:
         line = f"{self.prefix}: {text}"
@@ -48,15 +64,15 @@ class Progress:
         self._width = len(line)
 
     def stage(self, name: str) -> None:
-        """Start the next stage called ``name``."""
+        """Start the next stage called ``name`` (printed with the elapsed time)."""
         self.index += 1
         self.name = name
         if self.quiet:
             return
         if self.live:
-            self._draw(f"{self._counter()}{name}")
+            self._draw(f"{self._counter()}{name}{self._clock()}")
         else:
-            self.stream.write(f"{self.prefix}: {self._counter()}{name}\n")
+            self.stream.write(f"{self.prefix}: {self._counter()}{name}{self._clock()}\n")
             self.stream.flush()
 
     def update(self, done: int, total: int | None = None) -> None:
@@ -69,7 +85,7 @@ class Progress:
             return
         self._last_draw = now
         amount = f"{done}/{total}" if total else str(done)
-        self._draw(f"{self._counter()}{self.name} {amount}")
+        self._draw(f"{self._counter()}{self.name} {amount}{self._clock()}")
 
     def done(self, message: str | None = None) -> None:
         """Finish: clear the live line (or print ``message`` as a plain line)."""
@@ -79,6 +95,5 @@ class Progress:
             self.stream.write("\r" + " " * self._width + "\r")
             self._width = 0
         if message:
-            elapsed = time.monotonic() - self._started
-            self.stream.write(f"{self.prefix}: {message} ({elapsed:.1f} s)\n")
+            self.stream.write(f"{self.prefix}: {message}{self._clock()}\n")
         self.stream.flush()

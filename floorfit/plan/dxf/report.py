@@ -4,9 +4,27 @@ from __future__ import annotations
 
 from collections import Counter
 
+import numpy as np
+import shapely
+
+from floorfit.plan.dxf.cleanup import clean_segments, segments_of_lines
 from floorfit.plan.dxf.importer import ImportResult, import_drawing
 
-__all__ = ["inspect_plan", "report_from_result", "format_report"]
+__all__ = ["inspect_plan", "report_from_result", "format_report", "cleaned_edge_count"]
+
+
+def cleaned_edge_count(plan) -> int:
+    """Obstacle edges left after the linework clean-up the C-obstacles start from
+    (:func:`floorfit.plan.dxf.cleanup.clean_segments`: zero-length and duplicate segments dropped,
+    collinear overlapping ones merged; filled polygons keep their ring edges)."""
+    n = 0
+    if len(plan.walls):
+        coords, idx = shapely.get_coordinates(plan.walls, return_index=True)
+        n += len(clean_segments(segments_of_lines(coords, idx)))
+    if len(plan.solids):
+        rings = shapely.get_rings(plan.solids)
+        n += int(np.sum(shapely.get_num_coordinates(rings) - 1))
+    return n
 
 
 def report_from_result(result: ImportResult) -> dict:
@@ -40,6 +58,7 @@ def report_from_result(result: ImportResult) -> dict:
             "doors_by_source": dict(sorted(counts.items())),
             "labels": len(plan.labels),
             "edges": plan.edge_count(),
+            "edges_after_cleanup": cleaned_edge_count(plan),
             "expanded_entities": result.block_stats.expanded_entities,
             "block_depth": result.block_stats.max_depth,
         },
@@ -86,8 +105,9 @@ def format_report(report: dict, max_layers: int = 60) -> str:
         f"({x1 - x0:.2f} x {y1 - y0:.2f} m, all geometry read, drawing frame)",
         f"obstacles   within {report['obstacle_extent_m'][2] - report['obstacle_extent_m'][0]:.2f} x "
         f"{report['obstacle_extent_m'][3] - report['obstacle_extent_m'][1]:.2f} m",
-        f"obstacles   {c['obstacles']} ({c['walls']} linework, {c['solids']} filled), {c['edges']} edges, "
-        f"curves flattened to {report['curve_tolerance_m'] * 1000:g} mm",
+        f"obstacles   {c['obstacles']} ({c['walls']} linework, {c['solids']} filled), {c['edges']} edges"
+        + (f" ({c['edges_after_cleanup']} after clean-up)" if c.get("edges_after_cleanup") is not None else "")
+        + f", curves flattened to {report['curve_tolerance_m'] * 1000:g} mm",
         f"doors       {c['doors']}" + (" (" + ", ".join(f"{k} {v}" for k, v in c["doors_by_source"].items()) + ")"
                                        if c["doors_by_source"] else ""),
         f"labels      {c['labels']}",
