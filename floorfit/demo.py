@@ -14,11 +14,12 @@ from pathlib import Path
 
 import ezdxf
 
-__all__ = ["write_demo_site", "DEMO_PLAN", "DEMO_SITE", "DEMO_VEHICLE", "DEMO_ROUTES", "STATIONS"]
+__all__ = ["write_demo_site", "DEMO_PLAN", "DEMO_SITE", "DEMO_VEHICLE", "DEMO_TUG", "DEMO_ROUTES", "STATIONS"]
 
 DEMO_PLAN = "harbourside-dc.dxf"
 DEMO_SITE = "harbourside-dc.site.toml"
 DEMO_VEHICLE = "tote-robot.toml"
+DEMO_TUG = "cart-tug.toml"
 
 MM = 1000.0   # the drawing is in millimetres
 
@@ -54,6 +55,11 @@ _SITE_TOML = """\
 [report]
 routes = [["DOCK", "PICK-A"], ["PICK-A", "SERVICE"]]   # the report draws these drivable paths
 
+[traffic]                # the fleet: the tote robot meets another tote robot or the cart tug
+vehicles = ["tote-robot.toml", "cart-tug.toml"]
+reference = "b56.5"      # 0.45 m kept between two vehicles passing each other
+one_way = false
+
 [stations]
 DOCK = { x = 15.0, y = 2.2, heading = -90.0 }
 PICK-A = { x = 6.5, y = 11.0 }
@@ -69,6 +75,20 @@ name = "tote robot"
 [footprint]
 # vehicle frame: +x forward, +y left, origin = midpoint of the drive axle (metres)
 outline = [[0.55, -0.31], [0.55, 0.31], [-0.35, 0.31], [-0.35, -0.31]]
+margin = 0.05
+
+[motion]
+mode = "differential"
+"""
+
+_TUG_TOML = """\
+# Invented demo vehicle: a tug towing a short cart, treated as one rigid outline.
+name = "cart tug"
+
+[footprint]
+width = 0.80
+length = 1.40
+reference_to_front = 0.45
 margin = 0.05
 
 [motion]
@@ -137,7 +157,8 @@ def write_demo_site(folder: str | Path) -> dict[str, Path]:
     """Write the demo drawing, site file and vehicle file into ``folder``; return their paths."""
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
-    paths = {"plan": folder / DEMO_PLAN, "site": folder / DEMO_SITE, "vehicle": folder / DEMO_VEHICLE}
+    paths = {"plan": folder / DEMO_PLAN, "site": folder / DEMO_SITE, "vehicle": folder / DEMO_VEHICLE,
+             "tug": folder / DEMO_TUG}
     # fixed header metadata (dates, GUIDs) so the demo drawing is byte-identical on every run
     old = ezdxf.options.write_fixed_meta_data_for_testing
     ezdxf.options.write_fixed_meta_data_for_testing = True
@@ -152,6 +173,7 @@ def write_demo_site(folder: str | Path) -> dict[str, Path]:
         ezdxf.options.write_fixed_meta_data_for_testing = old
     paths["site"].write_text(_SITE_TOML, encoding="utf-8")
     paths["vehicle"].write_text(_VEHICLE_TOML, encoding="utf-8")
+    paths["tug"].write_text(_TUG_TOML, encoding="utf-8")
     return paths
 
 

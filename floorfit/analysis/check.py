@@ -12,7 +12,9 @@ timed, reported in progress or skipped on its own:
 5. :func:`floorfit.analysis.tight.tight_findings`: ``tight`` findings for the required clearance;
 6. :func:`manoeuvre_stage`: manoeuvres of car-like vehicles and the swept routes the report draws;
 7. :func:`floorfit.analysis.noturn.turnability_map` and :func:`~floorfit.analysis.noturn.noturn_findings`:
-   the turnability map and ``no-turn`` findings.
+   the turnability map and ``no-turn`` findings;
+8. :func:`floorfit.analysis.traffic.traffic_stage` (only with the site's ``traffic`` settings): passing
+   places and ``single-lane`` findings along the routes between stations.
 
 ``quick=True`` stops after stage 4: what sizing needs to name the binding place.
 """
@@ -30,6 +32,7 @@ from floorfit.analysis.noturn import MAP_MAX_CELLS, noturn_findings, turnability
 from floorfit.analysis.passages import min_width
 from floorfit.analysis.places import find_places, station_regions
 from floorfit.analysis.tight import tight_findings
+from floorfit.analysis.traffic import traffic_stage
 from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.sizelimits import check_problem_size
 from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for, pool_size
@@ -156,8 +159,13 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     map_cell = choose_cell_size(clear.bounds, 0.1, MAP_MAX_CELLS)
     turnability, raster, fits = turnability_map(ctx, cs, clear, map_cell)
     findings += noturn_findings(ctx, cs, turnability, raster, fits, map_cell)
+    traffic = None
+    if site.traffic is not None:
+        more, traffic = traffic_stage(ctx, cs, reach, turnability.get("fits"))
+        findings += more
     result = _finish(ctx, findings, cuts, cs, clear, map_cell, needed, reach, turnability)
     result.routes = route_dicts
+    result.traffic = traffic
     return result
 
 

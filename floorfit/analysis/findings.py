@@ -16,6 +16,10 @@ Finding kinds (the JSON ``kind`` values):
 ``maneuver``
     A car-like vehicle can serve the stations only with reversing (a multi-point turn), or
     not at all forward within the search limits.
+``single-lane``
+    (only when fleet traffic is checked, see :mod:`floorfit.analysis.traffic`) A stretch of
+    the routes between stations where two vehicles cannot pass each other: one must wait at
+    a passing place or back out.
 """
 
 from __future__ import annotations
@@ -25,9 +29,11 @@ from typing import Any
 
 from floorfit.plan.stations import Station
 
-__all__ = ["Station", "Finding", "CheckResult", "FINDING_KINDS", "rank_findings"]
+__all__ = ["Station", "Finding", "CheckResult", "FINDING_KINDS", "FLEET_KINDS", "rank_findings"]
 
-FINDING_KINDS = ("blocked", "no-turn", "tight", "maneuver")
+FINDING_KINDS = ("blocked", "no-turn", "single-lane", "tight", "maneuver")
+#: Kinds that only a fleet traffic check reports (counted in a report only when traffic was checked).
+FLEET_KINDS = ("single-lane",)
 
 
 @dataclass
@@ -94,6 +100,8 @@ class CheckResult:
     turnability: dict[str, Any] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
     routes: list[dict[str, Any]] = field(default_factory=list)
+    #: fleet traffic (passing places, single-lane stretches; see floorfit.analysis.traffic), None when not checked
+    traffic: dict[str, Any] | None = None
 
     @property
     def passed(self) -> bool:
@@ -139,10 +147,10 @@ def rank_findings(findings: list[Finding]) -> list[Finding]:
     This is the report order too (:func:`floorfit.report.kinds.numbered_findings`), so the console's
     F-numbers, the report's marker numbers, the CSV and the overlay all agree: Fn is number n.
     """
-    order = {"blocked": 0, "no-turn": 1, "tight": 2, "maneuver": 3}
+    order = {kind: i for i, kind in enumerate(FINDING_KINDS)}
 
     def key(f: Finding):
-        return (order.get(f.kind, 9), 0 if f.cuts_off else 1, -len(f.cuts_off), round(f.x, 3), round(f.y, 3))
+        return (order.get(f.kind, len(order)), 0 if f.cuts_off else 1, -len(f.cuts_off), round(f.x, 3), round(f.y, 3))
 
     ranked = sorted(findings, key=key)
     for i, f in enumerate(ranked, 1):

@@ -25,6 +25,14 @@ def add_arguments(p) -> None:
     p.add_argument("--sweep", action="append", default=[], metavar="FROM:TO",
                    help="draw the drivable path and swept area between two stations; repeatable")
     p.add_argument("--loaded", action="store_true", help="use the vehicle file's [loaded] outline and height")
+    p.add_argument("--traffic", action="append", nargs="?", const="", default=None, metavar="VEHICLE.toml",
+                   help="check fleet traffic: where the vehicle can pass another one (this vehicle file; "
+                        "without a file, another vehicle like the checked one); repeatable; adds to [traffic]")
+    p.add_argument("--traffic-gap", type=float, metavar="M",
+                   help="metres kept between two vehicles passing each other (default 0.45, B56.5 §4.7.4)")
+    p.add_argument("--one-way", action="store_true",
+                   help="aisles may be run one way: single-lane stretches on a loop are no finding")
+    p.add_argument("--no-traffic", action="store_true", help="skip the site file's [traffic] check")
     p.add_argument("--quiet", action="store_true", help="no progress output")
     p.add_argument("--revision", metavar="REV", help="revision on the report (overrides the site file's [project])")
     p.add_argument("--paper", choices=("a4", "letter", "a3"), default="a4", help="paper of report.pdf (default a4)")
@@ -44,7 +52,7 @@ def check_and_report(args):
     from floorfit.report import Progress, write_report
     from floorfit.vehicles.loading import split_vehicle_file
 
-    site = read_site(args.site) if args.site else Site()
+    site = _traffic_options(read_site(args.site) if args.site else Site(), args)
     extra = [parse_station_flag(s) for s in args.station]
     from floorfit.articulated import articulated_check, merge_into_result
 
@@ -81,6 +89,32 @@ def check_and_report(args):
     return result, written
 
 
+def _traffic_options(site, args):
+    """The site with the command line's traffic options applied (they add to or override [traffic])."""
+    from dataclasses import replace
+
+    from floorfit.errors import InputError
+    from floorfit.plan.site import Traffic
+
+    if getattr(args, "no_traffic", False):
+        return replace(site, traffic=None)
+    files = getattr(args, "traffic", None)
+    gap = getattr(args, "traffic_gap", None)
+    one_way = getattr(args, "one_way", False)
+    if files is None and gap is None and not one_way:
+        return site
+    traffic = site.traffic or Traffic()
+    if files:
+        traffic = replace(traffic, vehicles=traffic.vehicles + tuple(f for f in files if f))
+    if gap is not None:
+        if not (0.0 <= gap <= 10.0):
+            raise InputError(f"--traffic-gap must be between 0 and 10 metres, got {gap:g}", None, "--traffic-gap")
+        traffic = replace(traffic, gap_m=gap, gap_reference="command line")
+    if one_way:
+        traffic = replace(traffic, one_way=True)
+    return replace(site, traffic=traffic)
+
+
 def summary_text(result, written) -> str:
     lines = []
     verdict = "PASS" if result.passed else "FAIL"
@@ -93,6 +127,12 @@ def summary_text(result, written) -> str:
     for f in result.findings:
         where = f" [{f.label}]" if f.label else ""
         lines.append(f"  {f.id} {f.kind:8s} at ({f.x:.2f}, {f.y:.2f}) m{where}: {f.summary}")
+    traffic = getattr(result, "traffic", None)
+    if traffic is not None:
+        st = traffic["stretches"]
+        lines.append(f"  traffic: {len(traffic['passing_places'])} passing places, {len(st)} single-lane stretches "
+                     f"({sum(s['length_m'] for s in st):.1f} m) for {traffic['settings']['vehicle']} meeting "
+                     f"{', '.join(traffic['settings']['meets'])} {traffic['settings']['gap_m']:.2f} m apart")
     for note in result.notes:
         lines.append(f"  note: {note}")
     s = result.settings

@@ -34,6 +34,13 @@ Site file (TOML, metres and degrees, drawing frame)::
     revision = "B"
     prepared_by = "J. Planner"
     date = 2025-03-14               # a TOML date or "YYYY-MM-DD"; never taken from the clock
+
+    [traffic]                       # fleet traffic: where two vehicles can pass (omit: not checked)
+    vehicles = ["tug.toml"]         # vehicle files the checked vehicle meets (relative to this file;
+                                    # default: another vehicle like the checked one)
+    gap = 0.45                      # metres kept between two vehicles passing each other
+    reference = "ANSI/ITSDF B56.5 §4.7.4"   # or "b56.5", "ada-route", "none" (sets gap too)
+    one_way = false                 # may aisles be run one-way (then stretches on a loop are no finding)
 """
 
 from __future__ import annotations
@@ -46,10 +53,10 @@ from typing import Any
 
 from floorfit.errors import InputError, SiteError
 from floorfit.plan.stations import Station
-from floorfit.tomlcheck import check_keys, get_number, get_string, read_toml
+from floorfit.tomlcheck import check_keys, get_bool, get_number, get_string, read_toml
 
 __all__ = ["Site", "read_site", "parse_station_flag", "apply_height_ranges", "CLEARANCE_REFERENCES", "DEFAULT_PERSON_WIDTH_M",
-           "PROJECT_KEYS",
+           "PROJECT_KEYS", "Traffic",
            "DEFAULT_HEADING_TOLERANCE_DEG", "stations_from_drawing"]
 
 #: Width of floor a person needs to walk through, metres (common practice: shoulder width
@@ -66,15 +73,35 @@ CLEARANCE_REFERENCES = {
 }
 DEFAULT_CLEARANCE = "b56.5"
 
-_TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights", "report", "project")
+_TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights", "report", "project",
+        "traffic")
 _REPORT = ("routes",)
 _STATION = ("x", "y", "heading", "heading_tolerance")
 _CLEARANCE = ("required", "reference")
 _ANALYSIS = ("heading_step", "person_width", "envelope")
+_TRAFFIC = ("vehicles", "gap", "reference", "one_way")
 #: Keys of the [project] table (report cover and title blocks), all optional.
 PROJECT_KEYS = ("name", "number", "client", "revision", "prepared_by", "date")
 _PROJECT_TEXT_MAX = 200
 _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 _.\-/#]{0,63}$")
+
+
+@dataclass(frozen=True)
+class Traffic:
+    """Fleet traffic settings (``[traffic]``): which vehicles the checked one meets, and how.
+
+    ``vehicles``: vehicle file paths (resolved against the site file), or vehicle objects
+    through the library API; empty means another vehicle like the checked one. ``gap_m``:
+    metres kept between two vehicles passing each other (between their footprints, margins
+    included), with ``gap_reference`` saying where the value comes from (a setting, not law;
+    see the cautions). ``one_way``: aisles may be run one-way, so a single-lane stretch on a
+    loop is listed but is no finding.
+    """
+
+    vehicles: tuple[Any, ...] = ()
+    gap_m: float = CLEARANCE_REFERENCES[DEFAULT_CLEARANCE][0]
+    gap_reference: str = CLEARANCE_REFERENCES[DEFAULT_CLEARANCE][1]
+    one_way: bool = False
 
 
 @dataclass
@@ -94,6 +121,7 @@ class Site:
     #: floor the check analyses: "auto" (hull of the obstacles and stations), "none" (all), or a polygon
     envelope: Any = "auto"
     project: dict[str, str] = field(default_factory=dict)     # [project] fields given (text)
+    traffic: Traffic | None = None                             # [traffic]; None: fleet traffic not checked
 
 
 def _check_name(name: str, path: str | None, where: str, error=SiteError) -> str:
@@ -161,6 +189,7 @@ def read_site(path: str | Path) -> Site:
             raise SiteError(f"need 0 ≤ bottom < top (metres), got [{lo:g}, {hi:g}]", src, where)
         site.heights[pattern] = (lo, hi)
     site.project = _read_project(data.get("project", {}), src)
+    site.traffic = _read_traffic(data.get("traffic"), src)
     analysis = data.get("analysis", {})
     if not isinstance(analysis, dict):
         raise SiteError("[analysis] must be a table", src, "analysis")
@@ -222,6 +251,31 @@ def _read_project(table: Any, src: str) -> dict[str, str]:
             raise SiteError(f"must be one line of at most {_PROJECT_TEXT_MAX} printable characters", src, where)
         out[key] = value.strip()
     return out
+
+
+def _read_traffic(table: Any, src: str) -> Traffic | None:
+    """The [traffic] table: vehicle files (relative to the site file), gap with its reference, one_way.
+    None when the site file has no [traffic] table."""
+    if table is None:
+        return None
+    if not isinstance(table, dict):
+        raise SiteError("[traffic] must be a table of vehicles, gap, reference, one_way", src, "traffic")
+    check_keys(table, _TRAFFIC, src, "traffic.", SiteError)
+    files = table.get("vehicles", [])
+    if isinstance(files, str):
+        files = [files]
+    if not isinstance(files, list) or not all(isinstance(f, str) and f.strip() for f in files):
+        raise SiteError(f"expected a list of vehicle file names, got {files!r}", src, "traffic.vehicles")
+    base = Path(src).parent
+    paths = tuple(str(base / f) for f in files)
+    ref = get_string(table, "reference", src, "traffic.", SiteError)
+    gap = get_number(table, "gap", src, "traffic.", SiteError, minimum=0.0, maximum=10.0)
+    if ref is not None and ref.lower() in CLEARANCE_REFERENCES and gap is None:
+        gap, ref = CLEARANCE_REFERENCES[ref.lower()]
+    one_way = get_bool(table, "one_way", src, "traffic.", SiteError, default=False)
+    if gap is None:
+        return Traffic(vehicles=paths, one_way=bool(one_way))
+    return Traffic(vehicles=paths, gap_m=gap, gap_reference=ref or "site file", one_way=bool(one_way))
 
 
 def apply_height_ranges(plan, ranges: dict[str, tuple[float, float]]):

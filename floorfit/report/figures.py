@@ -437,6 +437,50 @@ def routes_figure(result: Any, routes: list[dict]) -> Figure | None:
     return fig
 
 
+_PASS_FILL, _PASS_EDGE = "#cfe8d8", "#3d7a55"
+
+
+def traffic_figure(result: Any) -> Figure | None:
+    """Fleet traffic on the plan: passing places (hatched green), single-lane stretches (in the
+    single-lane colour) with their narrowest cross-section, and their numbers (None without traffic)."""
+    traffic = getattr(result, "traffic", None)
+    if traffic is None:
+        return None
+    box = _view_box(result)
+    fig, ax = _new_plan_axes(box)
+    _draw_obstacles(ax, result.plan)
+    _draw_doors(ax, result.plan)
+    shift = _origin(result.plan)
+    style = kind_style("single-lane")
+    places, stretches = traffic.get("passing_places", []), traffic.get("stretches", [])
+    path = _polygon_path([p["geometry"] for p in places], shift)
+    if path is not None:
+        ax.add_patch(PathPatch(path, facecolor=_PASS_FILL, edgecolor=_PASS_EDGE, hatch="///", linewidth=0.7,
+                               zorder=4))
+    path = _polygon_path([s["geometry"] for s in stretches], shift)
+    if path is not None:
+        ax.add_patch(PathPatch(path, facecolor=style.colour, alpha=0.45, edgecolor=style.colour, linewidth=1.0,
+                               zorder=5))
+    for s in stretches:
+        (ax0, ay0), (ax1, ay1) = s["narrowest"]
+        ax.plot([ax0, ax1], [ay0, ay1], color="#111111", linewidth=1.4, zorder=6, solid_capstyle="butt")
+    for item, colour in [(p, _PASS_EDGE) for p in places] + [(s, style.colour) for s in stretches]:
+        ax.annotate(plain_text(item["id"]), (item["x"], item["y"]), ha="center", va="center", fontsize=7.5,
+                    fontweight="bold", color="#ffffff", zorder=12,
+                    bbox={"boxstyle": "round,pad=0.25", "facecolor": colour, "edgecolor": "#ffffff",
+                          "linewidth": 0.6})
+    _draw_stations(ax, result.stations, 0.05 * (box[2] - box[0]))
+    _scale_bar(ax, box)
+    handles = _obstacle_handles(result.plan) + [
+        Patch(facecolor=_PASS_FILL, edgecolor=_PASS_EDGE, hatch="///", label="passing place (P)"),
+        Patch(facecolor=style.colour, alpha=0.45, edgecolor=style.colour, label="single-lane stretch (S)"),
+        Line2D([], [], color="#111111", linewidth=1.4, label="narrowest cross-section"),
+        _station_handle(),
+    ]
+    _legend_below(ax, handles)
+    return fig
+
+
 def vehicle_figure(vehicle: Any) -> Figure:
     """The vehicle outline and its footprint with margin, vehicle frame (+x forward), metres."""
     fig = Figure(figsize=(4.2, 3.2))
@@ -526,6 +570,14 @@ def draw_report_figures(result: Any, fmt: str | None = None) -> list[FigureImage
             "Swept areas of the planned routes",
             "The area the vehicle outline sweeps along each route, with the outline drawn at "
             "a few poses."))
+    fig = traffic_figure(result)
+    if fig is not None:
+        images.append(FigureImage(
+            "fig-traffic", "Fleet traffic", mime, render_figure(fig, fmt),
+            "Passing places and single-lane stretches on the plan",
+            "Floor along the routes between stations where two vehicles can pass each other "
+            "(passing places, P) and where they cannot (single-lane stretches, S), with the "
+            "narrowest cross-section of each stretch."))
     images.append(FigureImage(
         "fig-vehicle", "Vehicle", mime, render_figure(vehicle_figure(result.vehicle), fmt),
         "Vehicle outline and footprint with margin",

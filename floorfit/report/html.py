@@ -15,16 +15,16 @@ from collections.abc import Iterable, Sequence
 from typing import Any
 
 from floorfit import __version__
-from floorfit.analysis.findings import FINDING_KINDS
 from floorfit.report.cautions import CAUTIONS, CLEARANCE_REFERENCES, tolerance_statement
 from floorfit.report.figures import TURN_CLASSES, FigureImage
 from floorfit.report.kinds import KIND_STYLES, kind_style, numbered_findings
-from floorfit.report.tables import station_names, unreachable_pairs
+from floorfit.report.tables import report_kinds, station_names, unreachable_pairs
+from floorfit.report.traffic_html import traffic_section
 
 __all__ = ["render_html", "KIND_SYMBOLS"]
 
 #: Text symbol of each marker shape, used in the table so it matches the figure.
-KIND_SYMBOLS = {"o": "●", "s": "■", "D": "◆", "^": "▲", "P": "✚"}
+KIND_SYMBOLS = {"o": "●", "s": "■", "D": "◆", "^": "▲", "v": "▼", "P": "✚"}
 
 
 def _e(value: Any) -> str:
@@ -207,7 +207,7 @@ def _cut_text(ids: list[str], numbers: dict[str, int]) -> str:
 def _verdict(result: Any, numbers: dict[str, int]) -> str:
     passed = bool(result.passed)
     pairs = unreachable_pairs(result)
-    counts = {k: 0 for k in FINDING_KINDS}
+    counts = {k: 0 for k in report_kinds(result)}
     for f in result.findings:
         counts[f.kind] = counts.get(f.kind, 0) + 1
     n_stations = len(station_names(result))
@@ -430,7 +430,9 @@ def render_html(result: Any, images: Iterable[FigureImage], *, sheets: Sequence[
             [by_key.get("fig-routes")], "No route geometry was given."))
     body, toc = _numbered([
         _settings(result, by_key.get("fig-vehicle")), plan_section, turn_section, routes_section,
-        _findings_table(result), sheets_section(result, sheets, by_key, _figure, sheet_viewport_mm),
+        _findings_table(result),
+        traffic_section(result, numbers, _figure(by_key["fig-traffic"]) if "fig-traffic" in by_key else "", _badge),
+        sheets_section(result, sheets, by_key, _figure, sheet_viewport_mm),
         _reachability(result, numbers), _notes(result), _definitions(),
         _cautions()])
     title = f"floorfit site check — {result.vehicle.name} in {_name(result.plan.source)}"

@@ -48,6 +48,12 @@ KIND_STYLES: dict[str, KindStyle] = {
         "The vehicle can drive along this stretch but can never reverse its heading "
         "anywhere in it. It can leave only the way it is facing: entering a dead end "
         "forwards means backing all the way out."),
+    "single-lane": KindStyle(
+        "single-lane", "Single lane", "SNGL", "#009e73", "v", 130,
+        "Two vehicles of the fleet cannot pass each other along this stretch of a route "
+        "between stations: when they meet, one must wait at a passing place or back out. "
+        "Shown only when fleet traffic was checked; the table of stretches gives the width "
+        "the stretch has and the width passing needs."),
     "tight": KindStyle(
         "tight", "Tight", "TGHT", "#d99a00", "D", 2,
         "The vehicle gets through, but with less clearance to walls and obstacles than "

@@ -27,7 +27,8 @@ from floorfit.errors import InputError
 from floorfit.report.geometry import parts
 from floorfit.report.kinds import KIND_STYLES, kind_style, numbered_findings, plain_text
 
-__all__ = ["LAYERS", "FINDING_LAYERS", "finding_layer", "geometry_layer", "insunits_for", "overlay_dxf"]
+__all__ = ["LAYERS", "TRAFFIC_LAYERS", "FINDING_LAYERS", "finding_layer", "geometry_layer", "insunits_for",
+           "overlay_dxf"]
 
 #: Fixed layers: name → (AutoCAD colour index, description).
 LAYERS: dict[str, tuple[int, str]] = {
@@ -39,6 +40,14 @@ LAYERS: dict[str, tuple[int, str]] = {
     "FF-SPIN-OTLN": (5, "floorfit: where the vehicle can spin a full turn in place"),
     "FF-PATH-CNTR": (5, "floorfit: route centre lines (reference point path)"),
     "FF-PATH-SWPT": (4, "floorfit: swept area outlines of the routes"),
+}
+
+#: Layers of fleet traffic, present only when the check looked at it: name → (colour index, description).
+TRAFFIC_LAYERS: dict[str, tuple[int, str]] = {
+    "FF-TRAF-PASS": (94, "floorfit: passing places, where two vehicles can pass each other (floor strips)"),
+    "FF-TRAF-SNGL": (130, "floorfit: single-lane stretches, where two vehicles cannot pass (floor strips)"),
+    "FF-TRAF-WDTH": (130, "floorfit: narrowest cross-section of each single-lane stretch (the width it has)"),
+    "FF-TRAF-IDEN": (7, "floorfit: passing place (P) and stretch (S) numbers"),
 }
 
 _TURN_LAYERS = {"fits": "FF-FREE-OTLN", "turns_around": "FF-TURN-OTLN", "rotates": "FF-SPIN-OTLN"}
@@ -190,6 +199,29 @@ def overlay_dxf(result: Any) -> bytes:
         if route.get("swept") is not None:
             _add_geometry(msp, route["swept"], frame, "FF-PATH-SWPT", "FF-PATH-SWPT")
 
+    _add_traffic(doc, msp, getattr(result, "traffic", None), frame, radius)
+
     stream = io.StringIO()
     doc.write(stream)
     return doc.encode(stream.getvalue())
+
+
+def _add_traffic(doc: Any, msp: Any, traffic: dict | None, frame: _Frame, radius: float) -> None:
+    """Passing places and single-lane stretches (outlines, narrowest cross-sections, numbers); no
+    layers at all when fleet traffic was not checked."""
+    if traffic is None:
+        return
+    for name, (colour, description) in TRAFFIC_LAYERS.items():
+        _ensure_layer(doc, name, colour, description)
+    items = [("FF-TRAF-PASS", p) for p in traffic.get("passing_places", [])]
+    items += [("FF-TRAF-SNGL", s) for s in traffic.get("stretches", [])]
+    for layer, item in items:
+        if item.get("geometry") is not None:
+            _add_geometry(msp, item["geometry"], frame, layer, layer)
+        text = msp.add_text(_dxf_text(item["id"]), height=0.9 * radius, dxfattribs={"layer": "FF-TRAF-IDEN"})
+        text.set_placement(frame.drawing(item["x"], item["y"]), align=TextEntityAlignment.MIDDLE_CENTER)
+    for s in traffic.get("stretches", []):
+        ends = s.get("narrowest_local")
+        if ends is not None:
+            msp.add_lwpolyline(frame.local_coords(np.asarray(ends)), format="xy",
+                               dxfattribs={"layer": "FF-TRAF-WDTH"})

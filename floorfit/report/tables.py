@@ -19,13 +19,14 @@ import numpy as np
 import shapely
 
 from floorfit import __version__
-from floorfit.analysis.findings import FINDING_KINDS
+from floorfit.analysis.findings import FINDING_KINDS, FLEET_KINDS
 from floorfit.report.kinds import numbered_findings
 
 __all__ = [
     "REPORT_FORMAT", "REPORT_FORMAT_VERSION", "CSV_COLUMNS",
     "report_data", "findings_json", "findings_csv",
-    "station_names", "unreachable_pairs", "escape_csv_cell",
+    "station_names", "unreachable_pairs", "escape_csv_cell", "report_kinds",
+    "TRAFFIC_CSV_COLUMNS", "traffic_data", "traffic_csv",
 ]
 
 #: Value of the ``format`` field of findings.json.
@@ -148,8 +149,14 @@ def _plan(plan: Any) -> dict[str, Any]:
     }
 
 
+def report_kinds(result: Any) -> list[str]:
+    """The finding kinds a report counts: fleet kinds only when fleet traffic was checked."""
+    traffic = getattr(result, "traffic", None) is not None
+    return [k for k in FINDING_KINDS if traffic or k not in FLEET_KINDS]
+
+
 def _verdict(result: Any) -> dict[str, Any]:
-    counts = {k: 0 for k in FINDING_KINDS}
+    counts = {k: 0 for k in report_kinds(result)}
     for f in result.findings:
         counts[f.kind] = counts.get(f.kind, 0) + 1
     return {
@@ -203,6 +210,7 @@ def report_data(result: Any, files: Sequence[str] = ()) -> dict[str, Any]:
         "reachability": _reachability(result),
         "findings": findings,
         "notes": [str(n) for n in result.notes],
+        **({"traffic": traffic_data(result)} if getattr(result, "traffic", None) is not None else {}),
     }
 
 
@@ -211,6 +219,72 @@ def findings_json(result: Any, files: Sequence[str] = ()) -> bytes:
     text = json.dumps(report_data(result, files), sort_keys=True, indent=2,
                       ensure_ascii=False, allow_nan=False)
     return (text + "\n").encode("utf-8")
+
+
+# -- fleet traffic ----------------------------------------------------------------------
+_LOCAL_ONLY = ("geometry", "narrowest_local", "finding")
+
+
+def traffic_data(result: Any) -> dict[str, Any]:
+    """The ``traffic`` record of findings.json: settings, passing places and single-lane stretches
+    (drawing frame, metres; each stretch names its finding id, null when one-way traffic settles it)."""
+    traffic = result.traffic
+    numbers = {id(f): n for n, f in numbered_findings(result.findings)}
+
+    def plain(item: dict) -> dict:
+        d = {k: v for k, v in item.items() if k not in _LOCAL_ONLY}
+        if "finding" in item:
+            f = item["finding"]
+            d["finding_id"] = None if f is None else f.id
+            d["finding_number"] = None if f is None else numbers.get(id(f))
+        return _jsonable(d, 4)
+
+    return {
+        "settings": _jsonable(traffic["settings"]),
+        "passing_places": [plain(p) for p in traffic["passing_places"]],
+        "stretches": [plain(s) for s in traffic["stretches"]],
+    }
+
+
+#: Column order of traffic.csv (fixed): one row per passing place and per single-lane stretch.
+TRAFFIC_CSV_COLUMNS: tuple[str, ...] = (
+    "id", "what", "finding", "label", "x_m", "y_m", "length_m", "clear_width_m", "needed_width_m",
+    "widening_m", "station_pairs", "ends", "one_way_possible",
+)
+_TRAFFIC_NUMBERS = frozenset({"x_m", "y_m", "length_m", "clear_width_m", "needed_width_m", "widening_m"})
+
+
+def _traffic_rows(result: Any) -> list[dict[str, Any]]:
+    data = traffic_data(result)
+    rows = []
+    for s in data["stretches"]:
+        ends = "; ".join(f"{e['passing_place'] or 'none'} at {e['distance_m'] or 0:.2f} m" for e in s["ends"])
+        rows.append({"id": s["id"], "what": "single-lane stretch", "finding": s["finding_id"] or "",
+                     "label": s["label"] or "", "x_m": s["x"], "y_m": s["y"], "length_m": s["length_m"],
+                     "clear_width_m": s["clear_width_m"], "needed_width_m": s["needed_width_m"],
+                     "widening_m": s["widening_m"], "station_pairs": "; ".join("–".join(p) for p in s["pairs"]),
+                     "ends": ends or ("dead end" if s["dead_end"] else ""),
+                     "one_way_possible": "yes" if s["one_way_possible"] else "no"})
+    for p in data["passing_places"]:
+        rows.append({"id": p["id"], "what": "passing place", "finding": "", "label": p["label"] or "",
+                     "x_m": p["x"], "y_m": p["y"], "length_m": p["length_m"], "clear_width_m": None,
+                     "needed_width_m": None, "widening_m": None,
+                     "station_pairs": "; ".join("–".join(q) for q in p["pairs"]), "ends": "",
+                     "one_way_possible": ""})
+    return rows
+
+
+def traffic_csv(result: Any) -> bytes:
+    """traffic.csv as bytes (same conventions as findings.csv): the single-lane stretches with
+    their length, the width they have, the width passing needs and the widening, then the
+    passing places."""
+    buf = io.StringIO(newline="")
+    writer = csv.writer(buf, lineterminator="\r\n", quoting=csv.QUOTE_MINIMAL)
+    writer.writerow(TRAFFIC_CSV_COLUMNS)
+    for row in _traffic_rows(result):
+        writer.writerow([_csv_number(row[c]) if c in _TRAFFIC_NUMBERS else escape_csv_cell(str(row[c]))
+                         for c in TRAFFIC_CSV_COLUMNS])
+    return buf.getvalue().encode("utf-8-sig")
 
 
 # -- CSV ------------------------------------------------------------------------------

@@ -47,6 +47,8 @@ OUTPUT_FILES: dict[str, str] = {
 }
 #: Paper sizes of report.pdf (landscape pages).
 PAPER_SIZES = ("a4", "letter", "a3")
+#: Written beside findings.csv when the check looked at fleet traffic (passing places, single-lane stretches).
+TRAFFIC_FILE = "traffic.csv"
 #: The file whose presence means "this folder holds a complete report".
 COMPLETION_MARKER = OUTPUT_FILES["json"]
 
@@ -94,6 +96,11 @@ def floorfit_wrote(path: str | os.PathLike) -> bool:
                 return zf.comment == BCF_SIGNATURE
         except (OSError, zipfile.BadZipFile):
             return False
+    if name == TRAFFIC_FILE:
+        from floorfit.report.tables import TRAFFIC_CSV_COLUMNS
+
+        first = _head(path, 4096).decode("utf-8-sig", errors="replace").splitlines()[:1]
+        return first == [",".join(TRAFFIC_CSV_COLUMNS)]
     if name == OUTPUT_FILES["pdf"]:
         return _head(path, 5) == b"%PDF-" and _PDF_SIGNATURE in _tail(path)
     return False
@@ -209,6 +216,10 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
     if "csv" in chosen:
         progress.stage("tabulating findings.csv")
         contents["csv"] = findings_csv(result)
+        if getattr(result, "traffic", None) is not None:
+            from floorfit.report.tables import traffic_csv
+
+            contents["traffic"] = traffic_csv(result)
     if "dxf" in chosen:
         progress.stage("drawing overlay.dxf")
         contents["dxf"] = overlay_dxf(result)
@@ -217,7 +228,8 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
         progress.stage("writing findings.bcf")
         contents["bcf"] = findings_bcf(result)
     progress.stage("writing findings.json")
-    contents["json"] = findings_json(result, [OUTPUT_FILES[f] for f in chosen])
+    contents["json"] = findings_json(result, [OUTPUT_FILES[f] for f in chosen]
+                                     + ([TRAFFIC_FILE] if "traffic" in contents else []))
     return contents
 
 
@@ -255,6 +267,8 @@ def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False
         chosen.append("bcf")
     old_ours = _check_folder(out_dir, force)
     targets = {fmt: out_dir / OUTPUT_FILES[fmt] for fmt in chosen}
+    if "csv" in chosen and getattr(result, "traffic", None) is not None:
+        targets["traffic"] = out_dir / TRAFFIC_FILE      # fleet traffic table, beside findings.csv
     _check_not_input(targets.values(), result.plan.source, out_dir)
 
     progress = Progress(total_stages=len(chosen) + (1 if "html" in chosen else 0) + 1, quiet=quiet)
@@ -267,14 +281,14 @@ def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False
     progress.stage(f"saving to {out_dir}")
     temps: dict[str, Path] = {}
     placed: list[Path] = []
-    order = [f for f in chosen if f != "json"] + ["json"]
+    order = [f for f in targets if f != "json"] + ["json"]
     try:
         out_dir.mkdir(parents=True, exist_ok=True)
         (out_dir / COMPLETION_MARKER).unlink(missing_ok=True)   # folder now marked incomplete
         for path in old_ours:                                   # earlier runs' files go
             path.unlink(missing_ok=True)
         for fmt in order:
-            temps[fmt] = _write_temp(out_dir, OUTPUT_FILES[fmt], contents[fmt])
+            temps[fmt] = _write_temp(out_dir, targets[fmt].name, contents[fmt])
         for fmt in order:
             os.replace(temps[fmt], targets[fmt])
             del temps[fmt]
