@@ -505,6 +505,8 @@ def _stretches(ctx: CheckContext, routes: list[TrafficRoute], places: list[dict]
                              "passing_place": None if near is None else near[0]["id"],
                              "distance_m": None if near is None else near[1]})
         has = float(widths[narrow])
+        if has >= pair.width and length < pair.length:
+            continue        # wide enough and shorter than the pair: the route turning a corner, not a lane
         out.append({
             "geometry": poly, "x_local": float(mid[0]), "y_local": float(mid[1]), "length_m": length,
             "label": _door_or_label(plan, poly, float(mid[0]), float(mid[1])),
