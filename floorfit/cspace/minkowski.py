@@ -471,7 +471,7 @@ def grow_convex(vertices: np.ndarray, grow_m: float, max_turn_deg: float = GROW_
 
 
 def footprint_parts_at(parts: list[Polygon], heading_deg: float, grow_m: float = 0.0) -> list[np.ndarray]:
-    """Convex footprint parts rotated to ``heading_deg`` and grown by ``grow_m`` (:func:`grow_convex`), as vertex arrays.
+    """Convex footprint parts rotated to ``heading_deg``, grown by ``grow_m`` (:func:`grow_convex`), as vertex arrays.
 
     The grown part contains the part's Minkowski sum with a disc of radius ``grow_m``, so
     growing is conservative.

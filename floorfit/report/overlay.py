@@ -201,8 +201,25 @@ def overlay_dxf(result: Any) -> bytes:
 
     _add_traffic(doc, msp, getattr(result, "traffic", None), frame, radius)
 
-    stream = io.StringIO()
-    doc.write(stream)
+    return _reproducible_bytes(doc)
+
+
+def _reproducible_bytes(doc: Any) -> bytes:
+    """The document as bytes that are the same on every run of the same input: ezdxf's fixed
+    header dates and GUIDs instead of the clock and random ones, and the DXF classes in a fixed
+    order (they are registered in an order that varies between runs)."""
+    old = ezdxf.options.write_fixed_meta_data_for_testing
+    ezdxf.options.write_fixed_meta_data_for_testing = True
+    try:
+        from ezdxf.document import CREATED_BY_EZDXF, ezdxf_marker_string
+
+        doc.ezdxf_metadata()[CREATED_BY_EZDXF] = ezdxf_marker_string()     # set when the document was made
+        doc.classes.add_required_classes(doc.dxfversion)
+        doc.classes.classes = type(doc.classes.classes)(sorted(doc.classes.classes.items()))
+        stream = io.StringIO()
+        doc.write(stream)
+    finally:
+        ezdxf.options.write_fixed_meta_data_for_testing = old
     return doc.encode(stream.getvalue())
 
 
