@@ -3,8 +3,9 @@ up at a limit" (exit 3, ``--max-expansions`` / ``--time-limit``)."""
 
 import json
 
-from floorfit.cli import main
 from test_articulated_site import TRAIN_TOML, _dxf_ring
+
+from floorfit.cli import main
 
 
 def test_tow_search_that_gives_up_is_not_a_proof(tmp_path, capsys):
