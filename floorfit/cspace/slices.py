@@ -73,7 +73,8 @@ __all__ = ["SliceSet", "build_slices", "choose_headings", "obstacles_for", "obst
            "SliceRecipe", "slice_recipe", "slice_domain", "cluster_reach_m", "run_slice_jobs", "slice_cobstacle",
            "slice_free", "free_components", "canonical_order", "union_polygons", "UNION_BACKEND", "CLIP_SCALE",
            "CLIP_GUARD_M", "MIN_COMPONENT_AREA_M2", "DOMAIN_PAD_M", "BOUNDS", "half_turn_twins",
-           "CASCADE_MIN_RINGS", "CASCADE_GUARD_M", "worker_count", "pool_size", "POOL_MIN_WORK",
+           "CASCADE_MIN_RINGS", "CASCADE_GUARD_M", "CASCADE_LEAF", "CASCADE_FANOUT", "worker_count", "pool_size",
+           "POOL_MIN_WORK",
            "shared_jobs", "TWIN_GROW_TOL_M"]
 
 #: Free-space components smaller than this are dropped, square metres.
@@ -297,11 +298,15 @@ def _tree_polygons(tree) -> list:
 #: smaller ones in one sweep. On a real drawing the walls form one cluster of thousands of
 #: overlapping pieces, and one sweep over them all grows far worse than linearly.
 CASCADE_MIN_RINGS = 512
-#: Rings per leaf of the cascade (unioned in one sweep before the pairwise merges).
-CASCADE_LEAF = 32
+#: Rings per leaf of the cascade (unioned in one sweep before the merges).
+CASCADE_LEAF = 16
+#: Neighbouring results merged in one sweep at each level of the cascade. On a real office
+#: floor (16,500 rings in one cluster) leaves of 16 merged 8 at a time took 30 % less time
+#: than leaves of 32 merged pairwise.
+CASCADE_FANOUT = 8
 #: Extra growth of the sound footprint (metres) when a cascade runs: every level of merges
 #: may round an intersection point by half a grid step (at most √2/2 steps off the true
-#: boundary), so 64 steps cover more than 80 levels, far beyond the ~log2(rings / leaf)
+#: boundary), so 64 steps cover more than 80 levels, far beyond the ~log8(rings / leaf)
 #: levels a cascade has.
 CASCADE_GUARD_M = 64.0 / CLIP_SCALE
 
@@ -331,18 +336,16 @@ def _cascade_union(paths: list, centres: np.ndarray) -> list:
     """Union of integer ``paths`` (non-zero winding) by divide and conquer, as GEOS's cascaded union does.
 
     The rings are ordered along a Z-order curve of their centres, unioned in leaves of
-    :data:`CASCADE_LEAF` neighbours, then neighbouring results are merged pairwise up a
-    binary tree. Each sweep then sees only the edges of one neighbourhood, so the cost
-    grows about as n·log n instead of with n times the edges crossing a scanline of the
-    whole cluster. Deterministic: the same rings give the same result.
+    :data:`CASCADE_LEAF` neighbours, then :data:`CASCADE_FANOUT` neighbouring results at a
+    time are merged up a tree. Each sweep then sees only the edges of one neighbourhood, so
+    the cost grows about as n·log n instead of with n times the edges crossing a scanline
+    of the whole cluster. Deterministic: the same rings give the same result.
     """
     order = _morton_order(centres)
     level = [_union_sweep([paths[i] for i in order[a:a + CASCADE_LEAF]]) for a in range(0, len(order), CASCADE_LEAF)]
     while len(level) > 1:
-        merged = [_union_sweep(level[a] + level[a + 1]) for a in range(0, len(level) - 1, 2)]
-        if len(level) % 2:
-            merged.append(level[-1])
-        level = merged
+        level = [_union_sweep([p for part in level[a:a + CASCADE_FANOUT] for p in part]) if a + 1 < len(level)
+                 else level[a] for a in range(0, len(level), CASCADE_FANOUT)]
     return level[0] if level else []
 
 
