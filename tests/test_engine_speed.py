@@ -225,3 +225,26 @@ def test_cleaned_plan_gives_the_same_free_space(cells):
     for k in range(len(cells)):
         assert shapely.equals(a.free(k), b.free(k)) or \
             shapely.symmetric_difference(a.free(k), b.free(k)).area < 1e-12
+
+
+def test_slice_cache_gives_back_the_very_slices_built(tmp_path, cells):
+    from floorfit.cspace.slicecache import use_cache
+
+    veh = vehicle_from_outline(OFFSET, name="axle")
+    plan = Plan.from_geometries(walls=[shapely.LineString([(0, 0), (10, 0), (10, 6)])],
+                                solids=[shapely.box(4, 1, 5, 2), shapely.box(7, 3, 8, 5)])
+    plain = build_slices(plan, veh, cells=cells)
+    use_cache(tmp_path)
+    try:
+        first = build_slices(plan, veh, cells=cells)
+        second = build_slices(plan, veh, cells=cells)
+        moved = Plan.from_geometries(walls=[shapely.LineString([(0, 0), (10, 0), (10, 6)])],
+                                     solids=[shapely.box(4, 1, 5, 2), shapely.box(7, 3, 8, 5.5)])
+        other = build_slices(moved, veh, cells=cells)
+    finally:
+        use_cache(None)
+    assert first.reused == 0 and second.reused == len(cells) and second.workers_used == 0
+    assert other.reused == 0                              # one solid 0.5 m longer: nothing reused
+    for a, b, c in zip(plain.components, first.components, second.components):
+        assert list(shapely.to_wkb(a)) == list(shapely.to_wkb(b)) == list(shapely.to_wkb(c))
+    assert len(list(tmp_path.rglob("*.wkb"))) == 2 * len(cells)

@@ -541,8 +541,10 @@ class SliceSet:
     #: ``twins[k]``: the slice whose free space slice k shares (k itself when none; see
     #: :func:`half_turn_twins`), or None. Consumers may reuse work done for the twin.
     twins: np.ndarray | None = field(default=None, repr=False)
-    #: Processes the slices were built on.
+    #: Processes the slices were built on (0: none were built, all came from the cache).
     workers_used: int = field(default=1, repr=False, compare=False)
+    #: Slices read from the disk cache instead of built (:mod:`floorfit.cspace.slicecache`).
+    reused: int = field(default=0, repr=False, compare=False)
     _trees: list = field(default_factory=list, repr=False)
 
     @property
@@ -852,10 +854,36 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
     twin = half_turn_twins(cells, recipe.jobs)
     own, jobs = shared_jobs(recipe.jobs, twin)
     processes = pool_size(obstacles, len(cells), workers)
-    done = dict(zip(own.tolist(), run_slice_jobs(obstacles, jobs, domain, labels, workers, progress, processes)))
+    done: dict[int, np.ndarray] = {}
+    cache = _slice_cache(obstacles, domain, labels)
+    if cache is not None:
+        for k, job in zip(own.tolist(), jobs):
+            hit = cache.get(job)
+            if hit is not None:
+                done[k] = hit
+    todo = [(k, job) for k, job in zip(own.tolist(), jobs) if k not in done]
+    built = run_slice_jobs(obstacles, [job for _, job in todo], domain, labels, workers, progress,
+                           processes if len(todo) == len(jobs) else pool_size(obstacles, len(todo), workers))
+    for (k, job), c in zip(todo, built):
+        done[k] = c
+        if cache is not None:
+            cache.put(job, c)
     comps = [done[k] if twin[k] == k else done[int(twin[k])].copy() for k in range(len(twin))]
     grow = recipe.grow
     return SliceSet(plan=plan, vehicle=vehicle, cells=cells, components=comps,
                     grow_m=grow if bound == "sound" else -grow, bound=bound,
                     tolerance_m=recipe.tolerance, domain=domain, twins=twin,
-                    workers_used=min(processes, max(1, len(jobs))))
+                    workers_used=min(processes, max(1, len(todo))) if todo else 0,
+                    reused=len(jobs) - len(todo))
+
+
+def _slice_cache(obstacles: ObstacleSet, domain: Polygon, labels: np.ndarray | None):
+    """The disk cache of slices when :func:`floorfit.cspace.slicecache.use_cache` turned it on, else None."""
+    from floorfit.cspace.slicecache import SliceCache, active_cache_dir
+
+    folder = active_cache_dir()
+    if folder is None:
+        return None
+    settings = (UNION_BACKEND, CLIP_SCALE, CLIP_GUARD_M, CASCADE_MIN_RINGS, CASCADE_LEAF, CASCADE_FANOUT,
+                CASCADE_GUARD_M, MIN_COMPONENT_AREA_M2)
+    return SliceCache(folder, obstacles, domain, labels, settings)
