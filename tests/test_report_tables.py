@@ -52,6 +52,8 @@ def test_json_fields_hold_the_result():
     assert data["complete"] is True and data["files"] == ["findings.json", "report.html"]
     assert data["verdict"] == {
         "passed": False, "finding_count": 5, "unreachable_pair_count": 6,
+        # the station pairs as console and report count them: 6 ordered (from, to) = 3 pairs
+        "station_pair_count": 6, "station_pairs_not_connected": 3,
         "findings_by_kind": {"blocked": 2, "no-turn": 1, "tight": 1, "maneuver": 1}}
     # report order: blocked first (engine order kept within a kind), numbered from 1
     assert [(f["number"], f["id"]) for f in data["findings"]] == [

@@ -32,9 +32,11 @@ def station_fit_findings(ctx: CheckContext, station_regions: dict[str, list[int]
             continue
         lx, ly = ctx.st_local[s.name]
         hd = f" at heading {s.heading_deg:g}° (±{s.heading_tolerance_deg:g}°)" if s.heading_deg is not None else ""
+        inside = len(ctx.plan.solids) and any(g.covers(shapely.Point(lx, ly)) for g in ctx.plan.solids)
+        why = " (it lies inside an obstacle of this layout)" if inside else ""
         out.append(Finding(
             kind="blocked", cause="station", x=s.x, y=s.y, label=place_name(ctx.plan, lx, ly),
-            summary=f"the vehicle does not fit at station {s.name}{hd}",
+            summary=f"the vehicle does not fit at station {s.name}{hd}{why}",
             cuts_off=[s.name], needed_width_m=round(needed, 4)))
         ctx.notes.append(f"station {s.name}: the vehicle does not fit there{hd}")
     return out

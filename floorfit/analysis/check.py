@@ -121,16 +121,18 @@ def _check_route_names(ctx: CheckContext, routes) -> None:
 def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Site | None = None,
               heading_step_deg: float | None = None, workers: int | None = 1,
               progress: Callable[[str], None] | None = None, quick: bool = False,
-              routes=None) -> CheckResult:
+              routes=None, stations_inside_ok: bool = False) -> CheckResult:
     """Check a site for a vehicle. Stations in the drawing frame (metres, degrees).
 
     ``quick=True`` finds reachability and blocked places only (no tight spots, no
     turnability map, no no-turn stretches): what sizing needs to name the binding place.
     ``routes``: (from, to) station-name pairs whose drivable path and swept area the report
-    draws (default: the site file's ``[report] routes``).
+    draws (default: the site file's ``[report] routes``). ``stations_inside_ok``: a station inside
+    an obstacle is a blocked finding (the vehicle does not fit there) instead of bad input, as a
+    layout comparison needs.
     """
     site = site or Site()
-    validate_stations(plan, stations, site.path)
+    validate_stations(plan, stations, site.path, inside_ok=stations_inside_ok)
     ctx = CheckContext.build(plan, vehicle, stations, site, progress or _noop, workers,
                              heading_step_deg if heading_step_deg is not None else site.heading_step_deg)
     cs = slice_stage(ctx)

@@ -108,6 +108,20 @@ class LayoutComparison:
         """True when AFTER loses reachability for any station pair."""
         return bool(self.pairs_lost)
 
+    @property
+    def headline(self) -> str:
+        """One honest word for the change: ``WORSE`` (a station pair lost), ``WORSE IN PLACES``
+        (no pair lost, but findings appeared or got worse), ``BETTER`` (pairs gained or findings
+        gone or better, nothing worse), else ``UNCHANGED``."""
+        c = self.counts()
+        if self.pairs_lost:
+            return "WORSE"
+        if c["appeared"] or c["worse"]:
+            return "WORSE IN PLACES"
+        if self.pairs_gained or c["disappeared"] or c["better"]:
+            return "BETTER"
+        return "UNCHANGED"
+
     def of(self, change: str) -> list[FindingChange]:
         """The changes of one kind (``"appeared"``, ``"disappeared"``, ...)."""
         return [c for c in self.changes if c.change == change]
@@ -137,7 +151,7 @@ class LayoutComparison:
             "format": COMPARISON_FORMAT, "version": 1,
             "vehicle": self.before.vehicle.describe(),
             "before": side(self.before), "after": side(self.after),
-            "after_worse": self.after_worse,
+            "after_worse": self.after_worse, "headline": self.headline,
             "match_distance_m": self.match_distance_m, "width_tolerance_m": WIDTH_TOLERANCE_M,
             "pairs": {"lost": [list(p) for p in self.pairs_lost], "gained": [list(p) for p in self.pairs_gained],
                       "still_cut": [list(p) for p in self.pairs_still_cut]},
@@ -151,7 +165,7 @@ class LayoutComparison:
     def summary_lines(self) -> list[str]:
         """Plain lines for the terminal."""
         c = self.counts()
-        head = "WORSE" if self.after_worse else "NOT WORSE"
+        head = self.headline
         lines = [f"{head}: {Path(str(self.before.plan.source)).name} → {Path(str(self.after.plan.source)).name} "
                  f"for {self.before.vehicle.name} — {len(self.pairs_lost)} station pairs lost, "
                  f"{len(self.pairs_gained)} gained; findings: {c['appeared']} appeared, {c['worse']} worse, "
@@ -175,8 +189,7 @@ class LayoutComparison:
 
 
 def _unreachable(r: CheckResult) -> list[tuple[str, str]]:
-    names = sorted(r.reachable)
-    return [(a, b) for i, a in enumerate(names) for b in names[i + 1:] if not r.reachable[a].get(b, False)]
+    return r.station_pairs()[0]          # counted as everywhere else (floorfit.analysis.findings)
 
 
 def _stretch_m(f: Finding) -> float:
@@ -315,11 +328,13 @@ def compare_layouts(before_plan: Plan, after_plan: Plan, vehicle: Vehicle, stati
     progress = progress or (lambda _m: None)
     after_stations = stations if after_stations is None else after_stations
     progress("checking BEFORE")
+    # a station that a layout covers with an obstacle is a station the vehicle cannot serve there
+    # (a lost or gained station pair), not bad input
     before = run_check(before_plan, vehicle, stations, site=site, heading_step_deg=heading_step_deg,
-                       workers=workers)
+                       workers=workers, stations_inside_ok=True)
     progress("checking AFTER")
     after = run_check(after_plan, vehicle, after_stations, site=site, heading_step_deg=heading_step_deg,
-                      workers=workers)
+                      workers=workers, stations_inside_ok=True)
     comparison = compare_results(before, after, match_distance_m=match_distance_m)
     if size:
         from floorfit.analysis.sizing import size_vehicle

@@ -325,7 +325,10 @@ def merge_into_result(result, tc: TrainCheck) -> None:
     """
     from floorfit.analysis.findings import rank_findings
 
+    before = {f.id: f for f in result.findings}
     result.findings = rank_findings(list(result.findings) + list(tc.findings))
+    # the ids were renumbered: the cuts name the same findings by their new ids
+    result.cuts = {k: [before[i].id if i in before else i for i in ids] for k, ids in result.cuts.items()}
     names = list(result.reachable)
     for a in names:
         for b in names:

@@ -10,7 +10,9 @@ from pathlib import Path
 
 from floorfit.errors import InputError
 
-__all__ = ["parse_pose", "parse_floats", "write_json_atomic", "add_plan_arguments", "load_plan_from_args"]
+__all__ = ["parse_pose", "parse_floats", "write_json_atomic", "add_plan_arguments", "load_plan_from_args",
+           "add_plan_options", "heading_step_type", "add_heading_step_argument", "warn_unmatched_patterns",
+           "check_output_first"]
 
 
 def parse_floats(text: str, n: int | tuple[int, ...], what: str) -> tuple[float, ...]:
@@ -50,14 +52,22 @@ def write_json_atomic(path: str | Path, data) -> None:
         raise
 
 
-def add_plan_arguments(p) -> None:
-    """The plan-reading options every command shares."""
-    p.add_argument("plan", metavar="PLAN.dxf", help="floor plan (DXF) or building model (IFC)")
+def add_plan_options(p, *, window: bool = True) -> None:
+    """The plan-reading options every command that reads a drawing shares, with the same names."""
     p.add_argument("--units", metavar="U", help="drawing unit, overriding the header: mm, cm, m, in, ft")
-    p.add_argument("--window", metavar="XMIN,YMIN,XMAX,YMAX",
-                   help="use only this part of the drawing (drawing units)")
+    if window:
+        p.add_argument("--window", metavar="XMIN,YMIN,XMAX,YMAX",
+                       help="use only this part of the drawing (drawing units)")
+    p.add_argument("--layers", nargs="+", metavar="PATTERN",
+                   help="read only layers matching these patterns (case-insensitive, * and ?)")
     p.add_argument("--storey", metavar="NAME|ELEVATION",
                    help="IFC models: the storey to check (default: the storey nearest 0 m that holds walls)")
+
+
+def add_plan_arguments(p) -> None:
+    """``PLAN.dxf`` and the plan-reading options (:func:`add_plan_options`)."""
+    p.add_argument("plan", metavar="PLAN.dxf", help="floor plan (DXF) or building model (IFC)")
+    add_plan_options(p)
 
 
 def _vehicle_height(args) -> float | None:
@@ -75,12 +85,55 @@ def _vehicle_height(args) -> float | None:
     return getattr(vehicle, "height_m", None)
 
 
-def load_plan_from_args(args, roles=None):
+def heading_step_type(text: str) -> float:
+    """argparse type of ``--heading-step``: degrees in [0.1, 45]; 0, negative and absurd steps are refused."""
+    import argparse
+
+    from floorfit.cspace.slices import check_heading_step
+
+    try:
+        return check_heading_step(float(text))
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of degrees, got '{text}'") from None
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(exc.message if hasattr(exc, "message") else str(exc)) from None
+
+
+def add_heading_step_argument(p) -> None:
+    p.add_argument("--heading-step", type=heading_step_type, metavar="DEG",
+                   help="uniform heading step, degrees (0.1 to 45; default: chosen from the vehicle size)")
+
+
+def load_plan_from_args(args, roles=None, path=None):
+    """The drawing ``path`` (default ``args.plan``) read with the plan-reading options.
+
+    Site ``[layers]`` patterns that match no layer of the drawing are warned about on standard
+    error (a misspelt pattern silently changes nothing).
+    """
     from floorfit.plan.dxf import load_plan
     from floorfit.plan.ifc import band_for_height, is_ifc_path
+    path = path if path is not None else args.plan
     window = parse_floats(args.window, 4, "--window") if getattr(args, "window", None) else None
-    if is_ifc_path(args.plan):     # the height band of a building model follows the vehicle's height
-        return load_plan(args.plan, units=getattr(args, "units", None), window=window, roles=roles,
+    if is_ifc_path(path):     # the height band of a building model follows the vehicle's height
+        return load_plan(path, units=getattr(args, "units", None), window=window, roles=roles,
                          storey=getattr(args, "storey", None), band_top_m=band_for_height(_vehicle_height(args)))
-    return load_plan(args.plan, units=getattr(args, "units", None), window=window, roles=roles,
-                     storey=getattr(args, "storey", None))
+    plan = load_plan(path, units=getattr(args, "units", None), window=window, roles=roles,
+                     layers=getattr(args, "layers", None), storey=getattr(args, "storey", None))
+    warn_unmatched_patterns(plan)
+    return plan
+
+
+def warn_unmatched_patterns(plan) -> None:
+    """One warning line per site ``[layers]`` pattern that matched no layer (import issue ``unused-pattern``)."""
+    import sys
+
+    for issue in getattr(plan, "issues", None) or []:
+        if getattr(issue, "kind", None) == "unused-pattern":
+            print(f"floorfit: warning: {issue.message}", file=sys.stderr)
+
+
+def check_output_first(out_dir, force: bool, *inputs) -> None:
+    """Refuse an output folder the report writer would refuse, before any computation."""
+    from floorfit.report.writer import check_output_folder
+
+    check_output_folder(out_dir, force=force, sources=[i for i in inputs if i])

@@ -4,7 +4,12 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from floorfit.commands._common import add_plan_arguments, load_plan_from_args
+from floorfit.commands._common import (
+    add_heading_step_argument,
+    add_plan_arguments,
+    check_output_first,
+    load_plan_from_args,
+)
 
 NAME = "check"
 HELP = "check a site for a vehicle: stations, pinch points, no-turn stretches, clearance; writes a report"
@@ -19,7 +24,7 @@ def add_arguments(p) -> None:
                    help="a station (drawing frame, metres; heading in degrees if docking); repeatable")
     p.add_argument("--out", default="floorfit-report", metavar="DIR", help="output folder (default ./floorfit-report)")
     p.add_argument("--force", action="store_true", help="write into a folder that holds other files")
-    p.add_argument("--heading-step", type=float, metavar="DEG", help="uniform heading step, degrees")
+    add_heading_step_argument(p)
     p.add_argument("--workers", type=int, default=None, metavar="N",
                    help="processes for the slices (default: all cores; the answer is the same for any number)")
     p.add_argument("--sweep", action="append", default=[], metavar="FROM:TO",
@@ -52,6 +57,8 @@ def check_and_report(args):
     from floorfit.report import Progress, write_report
     from floorfit.vehicles.loading import split_vehicle_file
 
+    # an output folder the writer would refuse is refused now, not after the whole computation
+    check_output_first(args.out, args.force, args.plan, args.vehicle, getattr(args, "site", None))
     site = _traffic_options(read_site(args.site) if args.site else Site(), args)
     extra = [parse_station_flag(s) for s in args.station]
     from floorfit.articulated import articulated_check, merge_into_result

@@ -5,7 +5,9 @@ Exit 0 when no station pair lost reachability, 1 when AFTER loses any pair, 2 ba
 
 from __future__ import annotations
 
-from floorfit.commands._common import parse_floats
+from pathlib import Path
+
+from floorfit.commands._common import add_plan_options, check_output_first, load_plan_from_args, parse_floats
 from floorfit.commands.size import add_station_arguments, read_site_and_vehicle, stations_for
 
 NAME = "compare"
@@ -17,9 +19,9 @@ __all__ = ["NAME", "HELP", "ORDER", "add_arguments", "run"]
 
 
 def add_arguments(p) -> None:
-    p.add_argument("before", metavar="BEFORE.dxf", help="the layout as it is (DXF)")
-    p.add_argument("after", metavar="AFTER.dxf", help="the changed layout (DXF)")
-    p.add_argument("--units", metavar="U", help="drawing unit of both drawings, overriding the headers")
+    p.add_argument("before", metavar="BEFORE.dxf", help="the layout as it is (floor plan, DXF or IFC)")
+    p.add_argument("after", metavar="AFTER.dxf", help="the changed layout (floor plan, DXF or IFC)")
+    add_plan_options(p)          # --units, --window, --layers: for both drawings
     add_station_arguments(p)
     p.add_argument("--size", choices=("width", "length", "scale"),
                    help="also find the largest vehicle on both layouts, varying this dimension")
@@ -35,18 +37,20 @@ def add_arguments(p) -> None:
 def run(args) -> int:
     from floorfit.analysis.compare import compare_layouts
     from floorfit.errors import InputError
-    from floorfit.plan.dxf import load_plan
     from floorfit.report import Progress
     from floorfit.report.compare_html import write_comparison
 
     parse_floats(str(args.match_distance), 1, "--match-distance")
     if not args.match_distance > 0:
         raise InputError(f"--match-distance must be positive, got {args.match_distance:g}", None, "--match-distance")
+    if not args.no_reports:     # the full reports' folders: refused now, not after the computation
+        for side in ("before", "after"):
+            check_output_first(Path(args.out) / side, args.force, args.before, args.after)
     site, vehicle, flags = read_site_and_vehicle(args)
     progress = Progress(quiet=args.quiet)
     progress.stage("reading the drawings")
-    before_plan = load_plan(args.before, units=args.units, roles=site.roles)
-    after_plan = load_plan(args.after, units=args.units, roles=site.roles)
+    before_plan = load_plan_from_args(args, roles=site.roles, path=args.before)
+    after_plan = load_plan_from_args(args, roles=site.roles, path=args.after)
     before_st = stations_for(args.before, before_plan, site, flags)
     after_st = stations_for(args.after, after_plan, site, flags)
     comparison = compare_layouts(before_plan, after_plan, vehicle, before_st, after_st, site=site,

@@ -14,6 +14,7 @@ import os
 import tempfile
 from pathlib import Path
 
+from floorfit.commands._common import add_plan_arguments
 from floorfit.errors import InputError
 
 NAME = "inspect"
@@ -37,15 +38,9 @@ def parse_window(text: str) -> tuple[float, float, float, float]:
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
-    parser.add_argument("plan", help="the DXF drawing")
-    parser.add_argument("--units", help="drawing unit overriding the header: mm, cm, m, in, ft")
-    parser.add_argument("--window", help="crop window in drawing units: xmin,ymin,xmax,ymax")
-    parser.add_argument("--layers", nargs="+", metavar="PATTERN",
-                        help="read only layers matching these patterns (case-insensitive, * and ?)")
-    parser.add_argument("--site", help="site file (TOML) with [layers] and [blocks] role tables")
+    add_plan_arguments(parser)      # PLAN.dxf, --units U, --window, --layers, --storey: as every command
+    parser.add_argument("--site", metavar="SITE.toml", help="site file (TOML) with [layers] and [blocks] role tables")
     parser.add_argument("--json", metavar="OUT.json", help="also write the report as JSON")
-    parser.add_argument("--storey", metavar="NAME|ELEVATION",
-                        help="IFC models: the storey to read (default: the storey nearest 0 m that holds walls)")
 
 
 def write_json_atomic(path: str | os.PathLike, data: dict) -> None:

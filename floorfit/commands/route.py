@@ -8,6 +8,7 @@ vehicles: the holonomic analysis connects the poses, the drive search gave up).
 from __future__ import annotations
 
 from floorfit.commands._common import (
+    add_heading_step_argument,
     add_plan_arguments,
     load_plan_from_args,
     parse_pose,
@@ -29,8 +30,7 @@ def add_arguments(p) -> None:
     p.add_argument("--vehicle", required=True, metavar="VEHICLE.toml", help="vehicle file")
     p.add_argument("--start", required=True, metavar="X,Y,HEADING", help="start pose (drawing frame, m, deg)")
     p.add_argument("--goal", required=True, metavar="X,Y,HEADING", help="goal pose (drawing frame, m, deg)")
-    p.add_argument("--heading-step", type=float, metavar="DEG",
-                   help="uniform heading step in degrees (default: chosen from the vehicle size)")
+    add_heading_step_argument(p)
     p.add_argument("--workers", type=int, default=None, metavar="N",
                    help="processes for the slices (default: all cores; the answer is the same for any number)")
     p.add_argument("--max-expansions", type=int, metavar="N",
@@ -39,6 +39,19 @@ def add_arguments(p) -> None:
                    help="car search: seconds before giving up (default 30)")
     p.add_argument("--json", metavar="OUT.json", help="write the answer as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress output")
+
+
+def _check_inside(plan, vehicle, start, goal) -> None:
+    """Refuse a start or goal outside the floor the slices cover (the drawing's extent grown by the
+    vehicle radius and 1 m), naming the likely unit when the pose looks like millimetres or inches."""
+    from floorfit.cspace.slices import DOMAIN_PAD_M
+    from floorfit.errors import InputError
+    from floorfit.plan.stations import outside_drawing
+
+    for flag, pose in (("--start", start), ("--goal", goal)):
+        msg = outside_drawing(plan, pose[0], pose[1], vehicle.radius_m + DOMAIN_PAD_M)
+        if msg is not None:
+            raise InputError(f"{flag[2:]} pose {msg}", None, flag)
 
 
 def _limits(args):
@@ -72,6 +85,7 @@ def run(args) -> int:
     vehicle = load_vehicle(args.vehicle)
     progress = Progress(quiet=getattr(args, "quiet", False))
     plan = load_plan_from_args(args)
+    _check_inside(plan, vehicle, start, goal)
     # after reading, so that bad input still gives one line on standard error
     progress.stage(f"drawing read: {plan.obstacle_count} obstacles")
     # the slices find_route would build (start and goal headings get slices of their own),

@@ -8,7 +8,13 @@ from __future__ import annotations
 import time
 from pathlib import Path
 
-from floorfit.commands._common import add_plan_arguments, load_plan_from_args, parse_floats, write_json_atomic
+from floorfit.commands._common import (
+    add_heading_step_argument,
+    add_plan_arguments,
+    load_plan_from_args,
+    parse_floats,
+    write_json_atomic,
+)
 
 NAME = "size"
 HELP = ("find the largest width, length or scale of the vehicle for which every station pair stays "
@@ -25,7 +31,7 @@ def add_station_arguments(p) -> None:
     p.add_argument("--site", metavar="SITE.toml", help="site file: stations, layer roles, heading step")
     p.add_argument("--station", action="append", default=[], metavar="NAME=X,Y[,HEADING]",
                    help="a station (drawing frame, metres; heading in degrees if docking); repeatable")
-    p.add_argument("--heading-step", type=float, metavar="DEG", help="uniform heading step, degrees")
+    add_heading_step_argument(p)
     p.add_argument("--workers", type=int, default=None, metavar="N",
                    help="processes for the slices (default: all cores; the answer is the same for any number)")
     p.add_argument("--quiet", action="store_true", help="no progress output")

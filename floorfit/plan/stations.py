@@ -14,7 +14,7 @@ from shapely.geometry import Point
 
 from floorfit.errors import SiteError
 
-__all__ = ["Station", "validate_stations"]
+__all__ = ["Station", "validate_stations", "outside_drawing", "likely_unit_hint"]
 
 
 @dataclass(frozen=True)
@@ -32,7 +32,34 @@ class Station:
                 "heading_tolerance_deg": self.heading_tolerance_deg}
 
 
-def validate_stations(plan, stations: list[Station], source: str | None) -> None:
+#: Units a pose or station is most often given in by mistake, with metres per unit.
+_LIKELY_UNITS = (("millimetres", 0.001), ("centimetres", 0.01), ("inches", 0.0254), ("feet", 0.3048))
+
+
+def likely_unit_hint(plan, x: float, y: float) -> str:
+    """``"; if these are millimetres: (6.50, 11.00) m"`` when reading (x, y) in another unit puts it
+    inside the drawing's extent, else ``""``."""
+    x0, y0, x1, y1 = plan.extent_m
+    for name, f in _LIKELY_UNITS:
+        if x0 <= x * f <= x1 and y0 <= y * f <= y1:
+            return f"; if these are {name}: ({x * f:.2f}, {y * f:.2f}) m"
+    return ""
+
+
+def outside_drawing(plan, x: float, y: float, pad_m: float) -> str | None:
+    """A one-line message when drawing-frame (x, y) lies more than ``pad_m`` outside the drawing's
+    extent (with the likely unit when another unit would put it inside), else None."""
+    x0, y0, x1, y1 = plan.extent_m
+    if x0 - pad_m <= x <= x1 + pad_m and y0 - pad_m <= y <= y1 + pad_m:
+        return None
+    return (f"({x:g}, {y:g}) m lies outside the drawing (extent {x0:.1f}..{x1:.1f} × {y0:.1f}..{y1:.1f} m); "
+            f"positions are in metres in the drawing frame{likely_unit_hint(plan, x, y)}")
+
+
+def validate_stations(plan, stations: list[Station], source: str | None, *, inside_ok: bool = False) -> None:
+    """Refuse duplicate names, non-finite or far-off coordinates and (unless ``inside_ok``, as
+    when comparing layouts, where a station the new layout covers is a lost station) stations
+    inside an obstacle."""
     names = set()
     x0, y0, x1, y1 = plan.extent_m
     pad = max(x1 - x0, y1 - y0) * 0.5 + 5.0
@@ -48,8 +75,8 @@ def validate_stations(plan, stations: list[Station], source: str | None) -> None
         if not (x0 - pad <= s.x <= x1 + pad and y0 - pad <= s.y <= y1 + pad):
             raise SiteError(f"station at ({s.x:g}, {s.y:g}) m lies far outside the drawing "
                             f"(extent {x0:.1f}..{x1:.1f} × {y0:.1f}..{y1:.1f} m); stations are in metres "
-                            f"in the drawing frame", source, where)
-        if tree is not None:
+                            f"in the drawing frame{likely_unit_hint(plan, s.x, s.y)}", source, where)
+        if tree is not None and not inside_ok:
             lx, ly = plan.to_local(s.x, s.y)
             hit = tree.query(Point(lx, ly), predicate="within")
             if len(hit):

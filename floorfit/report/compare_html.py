@@ -238,7 +238,9 @@ def render_comparison_html(comparison: Any, images: dict[str, Any], links: dict[
     before, after = comparison.before, comparison.after
     worse = comparison.after_worse
     counts = comparison.counts()
-    word = "AFTER is worse" if worse else "AFTER is not worse"
+    word = {"WORSE": "AFTER is worse", "WORSE IN PLACES": "AFTER is worse in places (no station pair lost)",
+            "BETTER": "AFTER is better", "UNCHANGED": "AFTER is unchanged"}.get(comparison.headline,
+                                                                               comparison.headline)
     line = (f"{_count(len(comparison.pairs_lost), 'station pair')} lost, {len(comparison.pairs_gained)} gained. "
             f"Findings: {counts['appeared']} appeared, {counts['worse']} got worse, {counts['disappeared']} "
             f"disappeared, {counts['better']} got better, {counts['unchanged']} unchanged.")

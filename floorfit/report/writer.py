@@ -154,6 +154,17 @@ def _check_not_input(targets: Iterable[Path], source: Any, out_dir: Path) -> Non
                              str(out_dir), target.name)
 
 
+def check_output_folder(out_dir: str | os.PathLike, *, force: bool = False, sources: Iterable[Any] = ()) -> None:
+    """Raise the :class:`~floorfit.errors.InputError` :func:`write_report` would raise for
+    ``out_dir`` (not a folder, files floorfit did not write without ``force``, a report file
+    that is one of the input files ``sources``), so a command can refuse before computing."""
+    out_dir = Path(out_dir)
+    _check_folder(out_dir, force)
+    targets = [out_dir / name for name in OUTPUT_FILES.values()]
+    for source in sources:
+        _check_not_input(targets, source, out_dir)
+
+
 def _write_temp(folder: Path, name: str, data: bytes) -> Path:
     """``data`` in a new temporary file in ``folder``, flushed to disk (permissions per umask)."""
     tmp = folder / f"{_TMP_PREFIX}{name}.{secrets.token_hex(6)}"

@@ -442,6 +442,11 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
             what = "is layer 0 (drawn without a layer)" if lname == "0" else "matches no known name"
             issues.append(ImportIssue("unknown-layer", f"layer '{lname}' ({count} entities) {what}: treated as "
                                       "wall; give it a role in the site file [layers] table", layer=lname))
+    # a site [layers] pattern that matches no layer at all is most likely misspelt: say so
+    for pat, role in resolver.user_layers:
+        if not any(_selected(n, [pat]) for n in walk.layer_names):
+            issues.append(ImportIssue("unused-pattern", f"site [layers] pattern '{pat}' (role {role}) matches "
+                                      "no layer of the drawing"))
     issues.extend(ImportIssue(k, m, h, lay) for k, m, h, lay in walk.issues)
     issues.extend(_skipped_issues(walk))
     if notes.get("hatch-ignore"):
