@@ -11,8 +11,8 @@ from pathlib import Path
 from floorfit.errors import InputError
 
 __all__ = ["parse_pose", "parse_floats", "write_json_atomic", "add_plan_arguments", "load_plan_from_args",
-           "add_plan_options", "heading_step_type", "add_heading_step_argument", "warn_unmatched_patterns",
-           "check_output_first"]
+           "add_cache_argument", "apply_cache_option", "add_plan_options", "heading_step_type",
+           "add_heading_step_argument", "warn_unmatched_patterns", "check_output_first"]
 
 
 def parse_floats(text: str, n: int | tuple[int, ...], what: str) -> tuple[float, ...]:
@@ -137,3 +137,18 @@ def check_output_first(out_dir, force: bool, *inputs) -> None:
     from floorfit.report.writer import check_output_folder
 
     check_output_folder(out_dir, force=force, sources=[i for i in inputs if i])
+
+
+def add_cache_argument(p) -> None:
+    """``--no-cache``: build every slice afresh instead of reusing the disk cache."""
+    p.add_argument("--no-cache", action="store_true",
+                   help="do not reuse or store slices in the disk cache (also FLOORFIT_CACHE=off)")
+
+
+def apply_cache_option(args) -> str | None:
+    """Turn the slice cache on or off for this run (see :mod:`floorfit.cspace.slicecache`); its folder or None."""
+    from floorfit.cspace.slicecache import default_cache_dir, use_cache
+
+    folder = None if getattr(args, "no_cache", False) else default_cache_dir()
+    use_cache(folder)
+    return None if folder is None else str(folder)
