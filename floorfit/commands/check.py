@@ -5,8 +5,10 @@ from __future__ import annotations
 from pathlib import Path
 
 from floorfit.commands._common import (
+    add_cache_argument,
     add_heading_step_argument,
     add_plan_arguments,
+    apply_cache_option,
     check_output_first,
     load_plan_from_args,
 )
@@ -39,6 +41,7 @@ def add_arguments(p) -> None:
                    help="aisles may be run one way: single-lane stretches on a loop are no finding")
     p.add_argument("--no-traffic", action="store_true", help="skip the site file's [traffic] check")
     p.add_argument("--quiet", action="store_true", help="no progress output")
+    add_cache_argument(p)
     p.add_argument("--revision", metavar="REV", help="revision on the report (overrides the site file's [project])")
     p.add_argument("--paper", choices=("a4", "letter", "a3"), default="a4", help="paper of report.pdf (default a4)")
 
@@ -65,6 +68,7 @@ def check_and_report(args):
 
     state = "loaded" if getattr(args, "loaded", False) else "default"
     vehicle, train = split_vehicle_file(args.vehicle, state=state)
+    apply_cache_option(args)
     progress = Progress(quiet=args.quiet)
     progress.stage("reading the drawing")
     plan = apply_height_ranges(load_plan_from_args(args, roles=site.roles), site.heights)

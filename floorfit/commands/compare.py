@@ -7,7 +7,13 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from floorfit.commands._common import add_plan_options, check_output_first, load_plan_from_args, parse_floats
+from floorfit.commands._common import (
+    add_plan_options,
+    apply_cache_option,
+    check_output_first,
+    load_plan_from_args,
+    parse_floats,
+)
 from floorfit.commands.size import add_station_arguments, read_site_and_vehicle, stations_for
 
 NAME = "compare"
@@ -47,6 +53,7 @@ def run(args) -> int:
         for side in ("before", "after"):
             check_output_first(Path(args.out) / side, args.force, args.before, args.after)
     site, vehicle, flags = read_site_and_vehicle(args)
+    apply_cache_option(args)
     progress = Progress(quiet=args.quiet)
     progress.stage("reading the drawings")
     before_plan = load_plan_from_args(args, roles=site.roles, path=args.before)

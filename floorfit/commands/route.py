@@ -8,8 +8,10 @@ vehicles: the holonomic analysis connects the poses, the drive search gave up).
 from __future__ import annotations
 
 from floorfit.commands._common import (
+    add_cache_argument,
     add_heading_step_argument,
     add_plan_arguments,
+    apply_cache_option,
     load_plan_from_args,
     parse_pose,
     write_json_atomic,
@@ -39,6 +41,7 @@ def add_arguments(p) -> None:
                    help="car search: seconds before giving up (default 30)")
     p.add_argument("--json", metavar="OUT.json", help="write the answer as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress output")
+    add_cache_argument(p)
 
 
 def _check_inside(plan, vehicle, start, goal) -> None:
@@ -83,6 +86,7 @@ def run(args) -> int:
     goal = parse_pose(args.goal, "--goal")
     limits = _limits(args)
     vehicle = load_vehicle(args.vehicle)
+    cache = apply_cache_option(args)
     progress = Progress(quiet=getattr(args, "quiet", False))
     plan = load_plan_from_args(args)
     _check_inside(plan, vehicle, start, goal)
@@ -108,9 +112,20 @@ def run(args) -> int:
     if args.json:
         write_json_atomic(args.json, data)
     print(format_route(result, vehicle.name))
+    print(_slices_line(slices, cache))
     if result.reachable:
         return 0
     return EXIT_NOT_FOUND_WITHIN_LIMITS if result.status == NOT_FOUND_WITHIN_LIMITS else 1
+
+
+def _slices_line(slices, cache: str | None) -> str:
+    """Where the slices came from: built (on how many processes) or read from the disk cache."""
+    built = len(set(int(t) for t in slices.twins)) - slices.reused if slices.twins is not None \
+        else len(slices) - slices.reused
+    text = f"  slices: {built} built" + (f" on {slices.workers_used} processes" if slices.workers_used > 1 else "")
+    if cache is None:
+        return text + ", disk cache off"
+    return text + f", {slices.reused} reused from the disk cache {cache} (--no-cache to rebuild)"
 
 
 def format_segment(seg: dict) -> str:

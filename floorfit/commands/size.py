@@ -9,8 +9,10 @@ import time
 from pathlib import Path
 
 from floorfit.commands._common import (
+    add_cache_argument,
     add_heading_step_argument,
     add_plan_arguments,
+    apply_cache_option,
     load_plan_from_args,
     parse_floats,
     write_json_atomic,
@@ -35,6 +37,7 @@ def add_station_arguments(p) -> None:
     p.add_argument("--workers", type=int, default=None, metavar="N",
                    help="processes for the slices (default: all cores; the answer is the same for any number)")
     p.add_argument("--quiet", action="store_true", help="no progress output")
+    add_cache_argument(p)
 
 
 def read_site_and_vehicle(args):
@@ -81,6 +84,7 @@ def run(args) -> int:
         if args.max_m <= 0:
             raise InputError(f"--max must be positive, got {args.max_m:g}", None, "--max")
     site, vehicle, flags = read_site_and_vehicle(args)
+    apply_cache_option(args)
     progress = Progress(quiet=args.quiet)
     started = time.monotonic()
     progress.stage("reading the drawing")
