@@ -42,9 +42,10 @@ OUTPUT_FILES: dict[str, str] = {
     "json": "findings.json",
     "csv": "findings.csv",
     "dxf": "overlay.dxf",
-    "bcf": "findings.bcf",          # building models (IFC) only: BCF 3.0 topics
     "pdf": "report.pdf",
 }
+#: Written only for checks on building models (IFC): the findings as BCF 3.0 topics.
+MODEL_FILES: dict[str, str] = {"bcf": "findings.bcf"}
 #: Paper sizes of report.pdf (landscape pages).
 PAPER_SIZES = ("a4", "letter", "a3")
 #: Written beside findings.csv when the check looked at fleet traffic (passing places, single-lane stretches).
@@ -89,7 +90,7 @@ def floorfit_wrote(path: str | os.PathLike) -> bool:
         return first == [",".join(CSV_COLUMNS)]
     if name == OUTPUT_FILES["dxf"]:
         return _DXF_SIGNATURE in _head(path)
-    if name == OUTPUT_FILES["bcf"]:
+    if name == MODEL_FILES["bcf"]:
         from floorfit.report.bcf import BCF_SIGNATURE
         try:
             with zipfile.ZipFile(path) as zf:
@@ -113,6 +114,10 @@ def _tail(path: Path, size: int = 64 * 1024) -> bytes:
             return fh.read(size)
     except OSError:
         return b""
+
+
+def _file_name(fmt: str) -> str:
+    return OUTPUT_FILES.get(fmt) or MODEL_FILES[fmt]
 
 
 def _check_formats(formats: Iterable[str], out_dir: Path) -> list[str]:
@@ -239,7 +244,7 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
         progress.stage("writing findings.bcf")
         contents["bcf"] = findings_bcf(result)
     progress.stage("writing findings.json")
-    contents["json"] = findings_json(result, [OUTPUT_FILES[f] for f in chosen]
+    contents["json"] = findings_json(result, [_file_name(f) for f in chosen]
                                      + ([TRAFFIC_FILE] if "traffic" in contents else []))
     return contents
 
@@ -277,7 +282,7 @@ def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False
     if is_model_plan(result.plan) and "bcf" not in chosen:     # findings back into the model viewer
         chosen.append("bcf")
     old_ours = _check_folder(out_dir, force)
-    targets = {fmt: out_dir / OUTPUT_FILES[fmt] for fmt in chosen}
+    targets = {fmt: out_dir / _file_name(fmt) for fmt in chosen}
     if "csv" in chosen and getattr(result, "traffic", None) is not None:
         targets["traffic"] = out_dir / TRAFFIC_FILE      # fleet traffic table, beside findings.csv
     _check_not_input(targets.values(), result.plan.source, out_dir)
