@@ -142,7 +142,7 @@ def element_pieces(verts: np.ndarray, faces: np.ndarray, floor_z: float, band: t
         return []
     rel = np.column_stack([verts[:, :2], z])
     levels, exact = _levels(z, lo, hi)
-    start = max(zmin, 0.0)
+    start = 0.0 if zmin <= band[0] else zmin      # starting within the floor skin: on the floor
     pieces: list[Piece] = []
     covered = None
     covered_lines = None
