@@ -66,7 +66,7 @@ def _poly_convex(coords: np.ndarray) -> bool:
     return bool(np.all(cross >= -1e-12 * scale * scale))
 
 
-def convex_parts(poly: Polygon) -> list[Polygon]:
+def convex_parts(poly: Polygon) -> list[Polygon]:  # noqa: C901 (one merge loop over the triangulation, read top to bottom)
     """Split a simple polygon into convex parts whose union is ``poly``.
 
     Constrained Delaunay triangles are merged across their shared diagonals while the
