@@ -10,7 +10,8 @@ timed, reported in progress or skipped on its own:
 4. :func:`floorfit.analysis.blocked.station_fit_findings` and
    :func:`~floorfit.analysis.blocked.pinch_findings`: ``blocked`` findings, then the station pairs they cut;
 5. :func:`floorfit.analysis.tight.tight_findings`: ``tight`` findings for the required clearance;
-6. :func:`manoeuvre_stage`: manoeuvres of car-like vehicles and the swept routes the report draws;
+6. :func:`manoeuvre_stage`: manoeuvres of car-like vehicles, the manoeuvre budget of differential and
+   car-like vehicles (:mod:`floorfit.analysis.budget`) and the swept routes the report draws;
 7. :func:`floorfit.analysis.noturn.turnability_map` and :func:`~floorfit.analysis.noturn.noturn_findings`:
    the turnability map and ``no-turn`` findings;
 8. :func:`floorfit.analysis.traffic.traffic_stage` (only with the site's ``traffic`` settings): passing
@@ -24,6 +25,7 @@ from __future__ import annotations
 from collections.abc import Callable
 
 from floorfit.analysis.blocked import pinch_findings, station_fit_findings, station_pair_cuts
+from floorfit.analysis.budget import budget_applies, budget_findings, budget_text
 from floorfit.analysis.clearance_field import choose_cell_size, clearance_field
 from floorfit.analysis.context import CheckContext, ClearanceStage, SliceStage
 from floorfit.analysis.findings import CheckResult, Finding, rank_findings
@@ -92,15 +94,23 @@ def clearance_stage(ctx: CheckContext) -> ClearanceStage:
     return ClearanceStage(bounds=bounds, cell=cell, field=field, floor=floor)
 
 
-def manoeuvre_stage(ctx: CheckContext, cs: SliceStage, routes) -> tuple[list[Finding], list[dict]]:
-    """Manoeuvre findings of car-like vehicles, and the swept routes the report draws."""
+def manoeuvre_stage(ctx: CheckContext, cs: SliceStage, routes, reach: dict | None = None,
+                    cuts: dict | None = None) -> tuple[list[Finding], list[dict]]:
+    """Manoeuvre findings of car-like vehicles, the manoeuvre budget of differential and car-like
+    vehicles (with ``reach``: pairs served only over the budget become unreachable, their findings
+    go to ``cuts``; :mod:`floorfit.analysis.budget`), and the swept routes the report draws."""
     vehicle, stations, site = ctx.vehicle, ctx.stations, ctx.site
     findings: list[Finding] = []
     pair_drives: dict = {}
+    budget = site.max_direction_changes if reach is not None else None
     if vehicle.mode == "car" and len(stations) > 1:
         ctx.progress("manoeuvres")
         findings = maneuver_findings(ctx.plan, vehicle, cs.slices, stations, roadmap=cs.roadmap, notes=ctx.notes,
-                                     pair_drives=pair_drives)
+                                     pair_drives=pair_drives, max_direction_changes=budget)
+    if budget_applies(vehicle, budget) and len(stations) > 1:
+        ctx.progress(f"manoeuvre budget ({budget_text(budget)})")
+        findings += budget_findings(ctx.plan, vehicle, cs.slices, stations, budget=budget, reach=reach,
+                                    roadmap=cs.roadmap, cuts=cuts, notes=ctx.notes, pair_drives=pair_drives)
     wanted = list(routes if routes is not None else site.routes)
     route_dicts: list[dict] = []
     if wanted:
@@ -154,7 +164,7 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     _check_route_names(ctx, routes)
     if quick:
         return _finish(ctx, findings, cuts, cs, clear, None, needed, reach, {})
-    manoeuvres, route_dicts = manoeuvre_stage(ctx, cs, routes)
+    manoeuvres, route_dicts = manoeuvre_stage(ctx, cs, routes, reach=reach, cuts=cuts)
     findings += manoeuvres
 
     ctx.progress("turnability map")
@@ -183,6 +193,9 @@ def _finish(ctx: CheckContext, findings, cuts, cs: SliceStage, clear: ClearanceS
         "clearance_reference": site.clearance_reference, "raster_cell_m": round(clear.cell, 4),
         "map_cell_m": None if map_cell is None else round(map_cell, 4), "needed_width_m": round(needed, 4),
         "location_tolerance_m": round(3 * clear.cell, 4), "vehicle_height_m": vehicle.height_m,
+        # the manoeuvre budget that judged station pairs (differential and car-like vehicles), else None
+        "max_direction_changes": site.max_direction_changes if budget_applies(vehicle, site.max_direction_changes)
+        else None,
     })
     return CheckResult(plan=ctx.plan, vehicle=vehicle, settings=settings, stations=list(ctx.stations),
                        reachable=reach, findings=findings, cuts=cuts_ids, turnability=turnability, notes=ctx.notes)

@@ -63,6 +63,7 @@ from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import Vehicle
 
 __all__ = [
+    "DriveContext",
     "MANEUVER_LIMITS",
     "PairDrive",
     "maneuver_findings",
@@ -124,6 +125,17 @@ class _Context:
         self.check = SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg,
                                       extra_margin_m=chord_error_m(self.radius, limits.path_step_m))
         self._grid = None
+        self._exact = None
+        #: differential bases: a path found with at most this many direction changes is kept as it is
+        self.accept_changes: int | None = None
+
+    @property
+    def exact(self):
+        """One exact slice check shared by the differential conversions of every pair."""
+        if self._exact is None:
+            from floorfit.motion.drivable import ExactSliceCheck
+            self._exact = ExactSliceCheck(self.slices, self.limits.path_step_m, self.limits.path_step_deg)
+        return self._exact
 
     @property
     def grid(self):
@@ -137,6 +149,10 @@ class _Context:
     def nodes(self, st: Station) -> list:
         from floorfit.cspace.roadmap import station_nodes
         return station_nodes(self.slices, self.local(st), st.heading_deg, st.heading_tolerance_deg)
+
+
+#: Shared state for the drives between many station pairs on one set of slices.
+DriveContext = _Context
 
 
 def _travel_heading(path: np.ndarray, at_start: bool) -> float | None:
@@ -238,7 +254,8 @@ def station_pair_drive(ctx: _Context, a: Station, b: Station) -> PairDrive:
     out.start_local, out.goal_local = tuple(hol[0]), tuple(hol[-1])
     if mode == "differential":
         dp = differential_plan(ctx.slices, ctx.G, hol, out.start_local, out.goal_local,
-                               reverse=ctx.vehicle.reverse, limits=ctx.limits, check=ctx.check)
+                               reverse=ctx.vehicle.reverse, limits=ctx.limits, check=ctx.exact,
+                               accept_changes=ctx.accept_changes)
         out.reasons.append(dp.reason)
         out.drive = dp
         out.status = FOUND if dp.found else NOT_FOUND
@@ -263,7 +280,7 @@ def _maneuver_span(dp: DrivePlan):
 def maneuver_findings(plan: Plan, vehicle: Vehicle, slices: SliceSet, stations: list[Station], *,
                       roadmap: nx.Graph | None = None, notes: list[str] | None = None,
                       limits: DriveLimits = MANEUVER_LIMITS, time_budget_s: float | None = 120.0,
-                      pair_drives: dict | None = None) -> list[Finding]:
+                      pair_drives: dict | None = None, max_direction_changes: int | None = None) -> list[Finding]:
     """``maneuver`` findings of a car-like vehicle between stations (drawing-frame positions).
 
     Every ordered pair of distinct stations that the roadmap ``roadmap`` (default: built
@@ -275,6 +292,9 @@ def maneuver_findings(plan: Plan, vehicle: Vehicle, slices: SliceSet, stations: 
     could not be planned for within ``limits``, and pairs left when ``time_budget_s`` is
     spent, are reported in ``notes`` (a list appended to) instead. Other motion modes: [].
     ``pair_drives``: an optional dict filled with ``(a, b) -> PairDrive``.
+    ``max_direction_changes``: with a manoeuvre budget, only pairs served within it give ``reversing``
+    findings here; pairs over it and pairs without a path found are judged by
+    :func:`floorfit.analysis.budget.budget_findings` (from ``pair_drives``).
     """
     if vehicle.mode != "car":
         return []
@@ -295,9 +315,10 @@ def maneuver_findings(plan: Plan, vehicle: Vehicle, slices: SliceSet, stations: 
                 pair_drives[(a.name, b.name)] = pd
             if pd.status in ("not-connected", "station-blocked"):
                 continue                     # the holonomic findings explain these
-            if pd.status == FOUND and not pd.forward_found and pd.direction_changes > 0:
+            over = max_direction_changes is not None and pd.direction_changes > max_direction_changes
+            if pd.status == FOUND and not pd.forward_found and pd.direction_changes > 0 and not over:
                 raw.append(("reversing", pd))
-            elif pd.status == NOT_FOUND:
+            elif pd.status == NOT_FOUND and max_direction_changes is None:
                 if vehicle.reverse:
                     notes.append(f"car path {a.name} → {b.name} not found within the search limits "
                                  f"(a path exists: the vehicle may reverse and the roadmap connects them)")

@@ -57,6 +57,7 @@ from typing import Any
 import networkx as nx
 import shapely
 
+from floorfit.analysis.budget import budget_applies, budget_text, first_pair_over_budget
 from floorfit.analysis.findings import Station
 from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for
@@ -137,15 +138,23 @@ class Connectivity:
     unplaced: list[str]
     tolerance_m: float
     bound: str
+    #: with a manoeuvre budget: the first station pair not driven within it (a binding-place dict,
+    #: :func:`floorfit.analysis.budget.first_pair_over_budget`), None when every pair is
+    over_budget: dict | None = None
 
 
 def stations_connected(plan: Plan, vehicle: Vehicle, stations: list[Station], cells, *,
-                       bound: str = "sound", obstacles=None, workers: int | None = 1) -> Connectivity:
+                       bound: str = "sound", obstacles=None, workers: int | None = 1,
+                       max_direction_changes: int | None = None, first_pair: tuple[str, str] | None = None
+                       ) -> Connectivity:
     """Does every station pair share a connected region of the vehicle's roadmap?
 
     ``cells``: the heading cells to use (:func:`floorfit.cspace.slices.choose_headings`). The
     same test as the site check's reachability (``CheckResult.reachable``), without the
-    findings; stations in the drawing frame, metres.
+    findings; stations in the drawing frame, metres. With ``max_direction_changes`` (differential
+    and car-like vehicles, sound bound) a connected layout is then judged by drivable paths within
+    that many direction changes (:func:`floorfit.analysis.budget.first_pair_over_budget`, on the
+    same slices and roadmap; ``first_pair`` is judged first).
     """
     from floorfit.cspace.roadmap import station_nodes
 
@@ -162,8 +171,12 @@ def stations_connected(plan: Plan, vehicle: Vehicle, stations: list[Station], ce
     names = [s.name for s in stations]
     separated = [(a, b) for i, a in enumerate(names) for b in names[i + 1:] if not regions[a] & regions[b]]
     unplaced = [n for n in names if not regions[n]]
-    return Connectivity(connected=not separated and not unplaced, separated=separated, unplaced=unplaced,
-                        tolerance_m=float(slices.tolerance_m), bound=bound)
+    over = None
+    if not separated and not unplaced and bound == "sound" and budget_applies(vehicle, max_direction_changes):
+        over = first_pair_over_budget(plan, vehicle, slices, stations, max_direction_changes, roadmap=G,
+                                      first=first_pair)
+    return Connectivity(connected=not separated and not unplaced and over is None, separated=separated,
+                        unplaced=unplaced, tolerance_m=float(slices.tolerance_m), bound=bound, over_budget=over)
 
 
 # -- the result ----------------------------------------------------------------------------
@@ -201,6 +214,8 @@ class SizingResult:
     blocked: list[dict[str, Any]] = field(default_factory=list)
     largest_tried_m: float | None = None
     notes: list[str] = field(default_factory=list)
+    #: the manoeuvre budget the stations were judged by (differential and car-like vehicles), else None
+    max_direction_changes: int | None = None
 
     @property
     def fits_now(self) -> bool:
@@ -234,6 +249,9 @@ class SizingResult:
             "errs": "low", "bound": "sound", "monotone": self.monotone,
             "heading_step_deg": self.heading_step_deg, "tolerance_m": r(self.tolerance_m, 6),
             "evaluations": self.evaluations,
+            "max_direction_changes": self.max_direction_changes,
+            "judged_by": ("holonomic" if self.max_direction_changes is None
+                          else f"drivable paths within {budget_text(self.max_direction_changes)}"),
             "binding": self.binding, "blocked": list(self.blocked),
             "stations": [s.to_dict() for s in self.stations],
             "notes": list(self.notes),
@@ -254,8 +272,12 @@ class SizingResult:
             where = f" [{self.binding['label']}]" if self.binding.get("label") else ""
             cw = self.binding.get("clear_width_m")
             cw_text = f", clear width {cw:.2f} m" if cw is not None else ""
+            cause = self.binding["cause"]
+            if self.binding.get("direction_changes") is not None and self.max_direction_changes is not None:
+                cause += (f": {self.binding['direction_changes']} direction changes, budget "
+                          f"{self.max_direction_changes}")
             text += (f"; binding place at ({self.binding['x']:.2f}, {self.binding['y']:.2f}) m{where}"
-                     f"{cw_text} ({self.binding['cause']})")
+                     f"{cw_text} ({cause})")
         return text
 
 
@@ -324,7 +346,8 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
                  site: Site | None = None, heading_step_deg: float | None = None,
                  precision_m: float = DEFAULT_PRECISION_M, max_m: float | None = None,
                  find_binding: bool = True, upper_bound: bool = True, workers: int | None = 1,
-                 progress: Callable[[str], None] | None = None) -> SizingResult:
+                 progress: Callable[[str], None] | None = None,
+                 max_direction_changes: int | None = None) -> SizingResult:
     """The largest value of one outline dimension for which every station pair stays connected.
 
     Parameters
@@ -347,6 +370,12 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
         Also search with the optimistic bound for ``upper_m`` (about five more evaluations).
     workers : int or None
         Processes for the slices of each evaluation.
+    max_direction_changes : int, optional
+        Manoeuvre budget (default: the site's, 2): differential and car-like vehicles fit only
+        when every station pair is driven within this many direction changes
+        (:mod:`floorfit.analysis.budget`; one drive per evaluation decides when it fails, the pair
+        that failed last being judged first). A limit set by the budget is the binding place
+        (kind ``maneuver``, cause ``over-budget`` with the count), without an optimistic ``upper_m``.
     """
     from floorfit.plan.stations import validate_stations
 
@@ -370,12 +399,19 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
     cap = max(cap, 2 * precision_m)
     floor = precision_m
     tried: dict[tuple[str, float], Connectivity] = {}
+    budget = site.max_direction_changes if max_direction_changes is None else max_direction_changes
+    budget = budget if budget_applies(vehicle, budget) else None
+    binding_pair: list[tuple[str, str]] = []        # the pair that failed the budget last
 
     def evaluate(value: float, bound: str) -> Connectivity:
         if (bound, value) not in tried:
             progress(f"{vary} {value:.3f} m ({bound} bound)")
-            tried[(bound, value)] = stations_connected(plan, make(value), stations, cells, bound=bound,
-                                                       obstacles=obstacles, workers=workers)
+            c = stations_connected(plan, make(value), stations, cells, bound=bound, obstacles=obstacles,
+                                   workers=workers, max_direction_changes=budget,
+                                   first_pair=binding_pair[-1] if binding_pair else None)
+            if c.over_budget is not None:
+                binding_pair.append(tuple(c.over_budget["pair"]))
+            tried[(bound, value)] = c
         return tried[(bound, value)]
 
     def fits(value: float) -> bool:
@@ -397,6 +433,8 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
         status = "limited"
         lo, hi = _bisect(fits, lo, hi, precision_m)
         # the true limit from above: the optimistic bound (errs towards "fits") says "separated"
+        if tried[("sound", hi)].over_budget is not None:
+            upper_bound = False      # the budget binds: the holonomic bounds say nothing about it
         if upper_bound and not might_fit(hi):
             upper = hi
         elif upper_bound:
@@ -419,7 +457,17 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
                          "in the varied dimension; the value found fits, a smaller one might not")
 
     binding, blocked = None, []
-    if find_binding and hi is not None:
+    over = tried[("sound", hi)].over_budget if hi is not None and ("sound", hi) in tried else None
+    if budget is not None:
+        notes.append(f"{vehicle.mode} vehicle: the stations count as connected only by drivable paths within "
+                     f"{budget_text(budget)} per pair (--max-direction-changes); these counts are the planner's "
+                     f"and need not be monotone in the {vary}: the value found was shown to fit")
+    if over is not None and find_binding:
+        binding = over
+        notes.append(f"the manoeuvre budget binds: just above the limit {over['pair'][0]} ⇄ {over['pair'][1]} "
+                     + (f"needs {over['direction_changes']} direction changes"
+                        if over["direction_changes"] is not None else "has no drivable path found within the limits"))
+    elif find_binding and hi is not None:
         progress("binding place")
         binding, blocked, check_notes = _binding_place(plan, make(hi), stations, site, step, workers)
         notes.extend(check_notes)
@@ -433,4 +481,4 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
         tolerance_m=tol, evaluations=len(tried), vehicle_name=vehicle.name, plan_source=str(plan.source),
         stations=list(stations), largest_factor=largest / current if vary == "scale" and largest else None,
         binding=binding, blocked=blocked, largest_tried_m=cap if status == "not-limited" else None,
-        notes=notes)
+        notes=notes, max_direction_changes=budget)

@@ -429,7 +429,8 @@ def _convert(slices, G, s_loc, g_loc, reverse, limits, check, clearance, deadlin
 
 
 def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray | None, s_loc, g_loc,
-                      *, reverse: bool, limits: DriveLimits, check=None, deadline: float | None = None):
+                      *, reverse: bool, limits: DriveLimits, check=None, deadline: float | None = None,
+                      accept_changes: int | None = None):
     """Rotate-and-drive plan for a differential base (local frame; poses in degrees).
 
     Subdivision of the holonomic route recomputed with a clearance of a few centimetres
@@ -437,7 +438,9 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
     a roadmap cell where the manoeuvres became too many (:func:`_convert`).
     ``holonomic_local`` is accepted for compatibility (the route is recomputed). Returns a
     :class:`floorfit.motion.drivable.DrivePlan`. ``check``: a shared
-    :class:`floorfit.motion.drivable.ExactSliceCheck` (optional).
+    :class:`floorfit.motion.drivable.ExactSliceCheck` (optional). ``accept_changes``: a path found
+    with at most this many direction changes is returned as it is, without the search for one with
+    fewer (a manoeuvre budget only asks whether the vehicle stays within it).
     """
     import time
 
@@ -450,7 +453,8 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
         check = ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
     clearance = ROUTE_CLEARANCE_MARGINS * 0.5 * limits.check_step_m
     dp = _convert(slices, G, s_loc, g_loc, reverse, limits, check, clearance, deadline)
-    if dp is not None and dp.found and reverse and dp.direction_changes > 0:
+    good_enough = accept_changes is not None and dp is not None and dp.direction_changes <= accept_changes
+    if dp is not None and dp.found and reverse and dp.direction_changes > 0 and not good_enough:
         dp = _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline)
     if dp is not None:
         dp.elapsed_s = time.perf_counter() - t0

@@ -35,6 +35,10 @@ Site file (TOML, metres and degrees, drawing frame)::
     prepared_by = "J. Planner"
     date = 2025-03-14               # a TOML date or "YYYY-MM-DD"; never taken from the clock
 
+    [motion]                        # manoeuvre budget for differential and car-like vehicles
+    max_direction_changes = 2       # forward/reverse changes a drive between two stations may use
+                                    # (default 2: one three-point turn); more is a `maneuver` finding
+
     [traffic]                       # fleet traffic: where two vehicles can pass (omit: not checked)
     vehicles = ["tug.toml"]         # vehicle files the checked vehicle meets (relative to this file;
                                     # default: another vehicle like the checked one)
@@ -57,13 +61,19 @@ from floorfit.tomlcheck import check_keys, get_bool, get_number, get_string, rea
 
 __all__ = ["Site", "read_site", "parse_station_flag", "apply_height_ranges", "CLEARANCE_REFERENCES", "DEFAULT_PERSON_WIDTH_M",
            "PROJECT_KEYS", "Traffic",
-           "DEFAULT_HEADING_TOLERANCE_DEG", "stations_from_drawing"]
+           "DEFAULT_HEADING_TOLERANCE_DEG", "stations_from_drawing", "DEFAULT_MAX_DIRECTION_CHANGES",
+           "MAX_DIRECTION_CHANGES_LIMIT", "check_direction_changes"]
 
 #: Width of floor a person needs to walk through, metres (common practice: shoulder width
 #: of an adult is about 0.45–0.5 m).
 DEFAULT_PERSON_WIDTH_M = 0.5
 #: How closely a docking heading must be met, degrees (common practice for AMR docking).
 DEFAULT_HEADING_TOLERANCE_DEG = 5.0
+#: Manoeuvre budget: the most forward/reverse changes a differential or car-like vehicle may use to
+#: drive between two stations (2: one three-point turn, or backing out of a dock and turning).
+DEFAULT_MAX_DIRECTION_CHANGES = 2
+#: Largest budget accepted (a drive with more changes is not one a planner would ask of a driver).
+MAX_DIRECTION_CHANGES_LIMIT = 10_000
 
 #: Clearance references a user may pick; values are settings, not law (see the cautions).
 CLEARANCE_REFERENCES = {
@@ -74,7 +84,8 @@ CLEARANCE_REFERENCES = {
 DEFAULT_CLEARANCE = "b56.5"
 
 _TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights", "report", "project",
-        "traffic")
+        "traffic", "motion")
+_MOTION = ("max_direction_changes",)
 _REPORT = ("routes",)
 _STATION = ("x", "y", "heading", "heading_tolerance")
 _CLEARANCE = ("required", "reference")
@@ -122,6 +133,8 @@ class Site:
     envelope: Any = "auto"
     project: dict[str, str] = field(default_factory=dict)     # [project] fields given (text)
     traffic: Traffic | None = None                             # [traffic]; None: fleet traffic not checked
+    #: [motion] max_direction_changes: the manoeuvre budget of differential and car-like vehicles
+    max_direction_changes: int = DEFAULT_MAX_DIRECTION_CHANGES
 
 
 def _check_name(name: str, path: str | None, where: str, error=SiteError) -> str:
@@ -199,7 +212,33 @@ def read_site(path: str | Path) -> Site:
     site.person_width_m = get_number(analysis, "person_width", src, "analysis.", SiteError,
                                      default=DEFAULT_PERSON_WIDTH_M, minimum=0.1, maximum=3.0)
     site.envelope = _read_envelope(analysis.get("envelope", "auto"), src)
+    site.max_direction_changes = _read_motion(data.get("motion", {}), src)
     return site
+
+
+def _read_motion(table: Any, src: str) -> int:
+    """The [motion] table: the manoeuvre budget (default :data:`DEFAULT_MAX_DIRECTION_CHANGES`)."""
+    if not isinstance(table, dict):
+        raise SiteError("[motion] must be a table", src, "motion")
+    check_keys(table, _MOTION, src, "motion.", SiteError)
+    if "max_direction_changes" not in table:
+        return DEFAULT_MAX_DIRECTION_CHANGES
+    return check_direction_changes(table["max_direction_changes"], src, "motion.max_direction_changes", SiteError)
+
+
+def check_direction_changes(value: Any, path: str | None, where: str, error=InputError) -> int:
+    """A manoeuvre budget: a whole number of direction changes, 0 to :data:`MAX_DIRECTION_CHANGES_LIMIT`."""
+    if isinstance(value, str):
+        try:
+            value = int(value.strip())
+        except ValueError:
+            raise error(f"expected a whole number of direction changes, got '{value}'", path, where) from None
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise error(f"expected a whole number of direction changes, got {type(value).__name__} {value!r}",
+                    path, where)
+    if not 0 <= value <= MAX_DIRECTION_CHANGES_LIMIT:
+        raise error(f"must be between 0 and {MAX_DIRECTION_CHANGES_LIMIT}, got {value}", path, where)
+    return value
 
 
 def _read_envelope(value: Any, src: str):
