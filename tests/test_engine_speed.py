@@ -248,3 +248,43 @@ def test_slice_cache_gives_back_the_very_slices_built(tmp_path, cells):
     for a, b, c in zip(plain.components, first.components, second.components):
         assert list(shapely.to_wkb(a)) == list(shapely.to_wkb(b)) == list(shapely.to_wkb(c))
     assert len(list(tmp_path.rglob("*.wkb"))) == 2 * len(cells)
+
+
+def test_window_slices_are_the_plan_slices_cut_to_the_window(rooms, cells):
+    veh = vehicle_from_outline(OFFSET, name="axle")
+    full = build_slices(rooms, veh, cells=cells)
+    window = (3.0, 2.5, 10.5, 9.0)
+    local = build_slices(rooms, veh, cells=cells, window=window)
+    box = shapely.box(*window)
+    assert shapely.equals(local.domain, shapely.intersection(full.domain, box))
+    for k in range(len(cells)):
+        cut = shapely.intersection(full.free(k), box)
+        # the whole plan's big cluster runs the cascade (CASCADE_GUARD_M, 6e-11 m more growth),
+        # the window's smaller one a single sweep: areas differ by that times the boundary length
+        assert shapely.symmetric_difference(cut, local.free(k)).area < 1e-7, k
+    with pytest.raises(ValueError):
+        build_slices(rooms, veh, cells=cells, window=(100.0, 100.0, 101.0, 101.0))
+
+
+def test_route_tries_the_slices_near_start_and_goal_first(tmp_path, capsys):
+    """A route found near the poses is stated as such; an unreachable one is decided on the whole drawing,
+    with the answers of --full-slices (the demo site's routes of tests/test_cli.py)."""
+    import json
+
+    from floorfit.cli import main
+    from floorfit.demo import write_demo_site
+
+    demo = write_demo_site(tmp_path / "plans")
+    answers = {}
+    for name, start, goal in (("dock", "15,2.2,-90", "6.5,11,90"), ("door", "36,7,0", "36,20,90")):
+        for mode in ((), ("--full-slices",)):
+            out = tmp_path / f"{name}{len(mode)}.json"
+            code = main(["route", str(demo["plan"]), "--vehicle", str(demo["vehicle"]), "--start", start,
+                         "--goal", goal, "--json", str(out), "--quiet", *mode])
+            text = capsys.readouterr().out
+            answers[name, len(mode)] = (code, json.loads(out.read_text())["status"], text)
+    assert answers["dock", 0][:2] == answers["dock", 1][:2] == (0, "reachable")
+    assert "around start and goal only" in answers["dock", 0][2]
+    assert "around start and goal only" not in answers["dock", 1][2]
+    assert answers["door", 0][:2] == answers["door", 1][:2] == (1, "unreachable")
+    assert "around start and goal only" not in answers["door", 0][2]      # decided on the whole drawing

@@ -41,6 +41,8 @@ def add_arguments(p) -> None:
                    help="car search: seconds before giving up (default 30)")
     p.add_argument("--json", metavar="OUT.json", help="write the answer as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress output")
+    p.add_argument("--full-slices", action="store_true",
+                   help="build the slices for the whole drawing at once instead of first near start and goal")
     add_cache_argument(p)
 
 
@@ -96,15 +98,31 @@ def run(args) -> int:
     # built here so that each stage can be reported
     cells = choose_headings(plan, vehicle, heading_step_deg=args.heading_step, extra_headings=(start[2], goal[2]))
     obstacles = obstacles_for(plan, vehicle)
-    processes = pool_size(obstacles, len(cells), args.workers)
-    progress.stage(f"slices: {len(cells)} headings on {processes} process{'es' if processes > 1 else ''}")
-    slices = build_slices(plan, vehicle, cells=cells, workers=args.workers, obstacles=obstacles,
-                          progress=progress.update)
-    progress.stage("roadmap")
-    roadmap = build_roadmap(slices)
-    progress.stage("route search (a failed search also builds the optimistic slices)")
-    result = find_route(plan, vehicle, start, goal, heading_step_deg=args.heading_step, workers=args.workers,
-                        limits=limits, slices=slices, roadmap=roadmap)
+    window = None if getattr(args, "full_slices", False) else _lazy_window(plan, vehicle, obstacles, start, goal)
+    result = slices = None
+    if window is not None:
+        # the slices near start and goal first: a route found there is a route in the plan
+        processes = pool_size(obstacles, len(cells), args.workers)
+        progress.stage(f"slices near start and goal: {len(cells)} headings on {processes} "
+                       f"process{'es' if processes > 1 else ''}")
+        slices = build_slices(plan, vehicle, cells=cells, workers=args.workers, window=window,
+                              progress=progress.update)
+        progress.stage("roadmap and route search near start and goal")
+        result = find_route(plan, vehicle, start, goal, heading_step_deg=args.heading_step, workers=args.workers,
+                            limits=limits, slices=slices, roadmap=build_roadmap(slices), check_optimistic=False)
+        if result.status not in LAZY_FINAL:
+            result = None          # not settled near the poses: the whole drawing decides
+    if result is None:
+        processes = pool_size(obstacles, len(cells), args.workers)
+        progress.stage(f"slices: {len(cells)} headings on {processes} process{'es' if processes > 1 else ''}")
+        slices = build_slices(plan, vehicle, cells=cells, workers=args.workers, obstacles=obstacles,
+                              progress=progress.update)
+        progress.stage("roadmap")
+        roadmap = build_roadmap(slices)
+        progress.stage("route search (a failed search also builds the optimistic slices)")
+        result = find_route(plan, vehicle, start, goal, heading_step_deg=args.heading_step, workers=args.workers,
+                            limits=limits, slices=slices, roadmap=roadmap)
+        window = None
     progress.done()
     data = result.to_dict()
     data["plan"] = str(args.plan)
@@ -112,17 +130,47 @@ def run(args) -> int:
     if args.json:
         write_json_atomic(args.json, data)
     print(format_route(result, vehicle.name))
-    print(_slices_line(slices, cache))
+    print(_slices_line(slices, cache, window, plan))
     if result.reachable:
         return 0
     return EXIT_NOT_FOUND_WITHIN_LIMITS if result.status == NOT_FOUND_WITHIN_LIMITS else 1
 
 
-def _slices_line(slices, cache: str | None) -> str:
-    """Where the slices came from: built (on how many processes) or read from the disk cache."""
+#: Answers the slices near start and goal settle (any other answer is decided on the whole drawing).
+LAZY_FINAL = ("reachable", "start-blocked", "goal-blocked")
+#: The window around start and goal reaches this far beyond them, metres (plus the vehicle's radius).
+LAZY_MARGIN_M = 3.0
+#: A window covering more than this share of the whole slice domain is not worth a first try.
+LAZY_MAX_SHARE = 0.5
+
+
+def _lazy_window(plan, vehicle, obstacles, start, goal):
+    """The rectangle (local frame, metres) around start and goal whose slices are tried first, or None."""
+    from floorfit.cspace.slices import slice_domain
+
+    (sx, sy), (gx, gy) = plan.to_local(start[0], start[1]), plan.to_local(goal[0], goal[1])
+    pad = LAZY_MARGIN_M + vehicle.radius_m
+    win = (min(sx, gx) - pad, min(sy, gy) - pad, max(sx, gx) + pad, max(sy, gy) + pad)
+    domain = slice_domain(obstacles.bounds, vehicle)
+    x0, y0, x1, y1 = domain.bounds
+    cut = (max(win[0], x0), max(win[1], y0), min(win[2], x1), min(win[3], y1))
+    if cut[0] >= cut[2] or cut[1] >= cut[3] or vehicle.mode == "fixed":
+        return None
+    if (cut[2] - cut[0]) * (cut[3] - cut[1]) > LAZY_MAX_SHARE * domain.area:
+        return None
+    return cut
+
+
+def _slices_line(slices, cache: str | None, window=None, plan=None) -> str:
+    """Where the slices came from: built (on how many processes, for which part of the drawing) or
+    read from the disk cache."""
     built = len(set(int(t) for t in slices.twins)) - slices.reused if slices.twins is not None \
         else len(slices) - slices.reused
     text = f"  slices: {built} built" + (f" on {slices.workers_used} processes" if slices.workers_used > 1 else "")
+    if window is not None:
+        (ax, ay), (bx, by) = plan.to_drawing(window[0], window[1]), plan.to_drawing(window[2], window[3])
+        text += (f" for x {ax:.1f} .. {bx:.1f} m, y {ay:.1f} .. {by:.1f} m around start and goal only, where the "
+                 f"route was found (--full-slices builds them for the whole drawing)")
     if cache is None:
         return text + ", disk cache off"
     return text + f", {slices.reused} reused from the disk cache {cache} (--no-cache to rebuild)"

@@ -830,7 +830,8 @@ def half_turn_twins(cells: HeadingCells, jobs: list) -> np.ndarray:
 def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None = None,
                  extra_headings=(), bound: str = "sound", workers: int | None = 1,
                  cells: HeadingCells | None = None, obstacles: ObstacleSet | None = None,
-                 progress: Callable[[int, int], None] | None = None) -> SliceSet:
+                 progress: Callable[[int, int], None] | None = None,
+                 window: tuple[float, float, float, float] | None = None) -> SliceSet:
     """Build the free configuration space of ``vehicle`` in ``plan``, one slice per heading cell.
 
     Parameters
@@ -848,6 +849,11 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
     progress : callable, optional
         ``progress(done, total)`` as slices complete (``total`` counts the slices computed:
         a footprint symmetric under a half turn shares slices between h and h + 180°).
+    window : (xmin, ymin, xmax, ymax), optional
+        Local frame, metres: build the free space inside this rectangle only (the slice
+        domain is cut to it). Inside, it is the free space of the whole plan (only obstacles
+        within the footprint's reach of the window are used); a path in it is a path in the
+        plan, but a region cut by the window edge may continue outside it.
     """
     if bound not in BOUNDS:
         raise ValueError(f"bound must be one of {BOUNDS}")
@@ -856,6 +862,19 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
     obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
     recipe = slice_recipe(plan, vehicle, cells, bound)
     domain = slice_domain(obstacles.bounds, vehicle)
+    if window is not None:
+        # free space inside the window only: the obstacles within the footprint's reach of it
+        # give every C-obstacle that meets it (a C-obstacle O ⊕ (−F) lies within that reach of O)
+        domain = shapely.intersection(domain, box(*window))
+        if domain.is_empty or shapely.get_type_id(domain) != 3:
+            raise ValueError(f"window {window} does not overlap the plan's slice domain")
+        walls, solids = obstacles_met(plan, vehicle)
+        reach = recipe.radius * (1.0 + 1e-9) + 1e-6
+        picked = []
+        for geoms in (walls, solids):
+            idx = shapely.STRtree(geoms).query(domain, predicate="dwithin", distance=reach) if len(geoms) else []
+            picked.append(geoms[np.unique(idx)] if len(geoms) else geoms)
+        obstacles = prepare_obstacles(picked[0], picked[1])
     # obstacles farther apart than the (grown) footprint's diameter never share a C-obstacle
     labels = obstacle_clusters(obstacles, cluster_reach_m(recipe))
     # a footprint symmetric under a half turn: headings h and h + 180° share one slice
