@@ -12,7 +12,8 @@ from floorfit.errors import InputError
 
 __all__ = ["parse_pose", "parse_floats", "write_json_atomic", "add_plan_arguments", "load_plan_from_args",
            "add_cache_argument", "apply_cache_option", "add_plan_options", "heading_step_type",
-           "add_heading_step_argument", "warn_unmatched_patterns", "check_output_first"]
+           "add_heading_step_argument", "warn_unmatched_patterns", "check_output_first", "direction_changes_type",
+           "add_budget_argument", "site_with_budget"]
 
 
 def parse_floats(text: str, n: int | tuple[int, ...], what: str) -> tuple[float, ...]:
@@ -97,6 +98,34 @@ def heading_step_type(text: str) -> float:
         raise argparse.ArgumentTypeError(f"expected a number of degrees, got '{text}'") from None
     except InputError as exc:
         raise argparse.ArgumentTypeError(exc.message if hasattr(exc, "message") else str(exc)) from None
+
+
+def direction_changes_type(text: str) -> int:
+    """argparse type of ``--max-direction-changes``: a whole number from 0 up."""
+    import argparse
+
+    from floorfit.plan.site import check_direction_changes
+
+    try:
+        return check_direction_changes(text, None, "--max-direction-changes")
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(exc.message if hasattr(exc, "message") else str(exc)) from None
+
+
+def add_budget_argument(p) -> None:
+    """``--max-direction-changes N``: the manoeuvre budget (overrides the site file's [motion] value)."""
+    p.add_argument("--max-direction-changes", type=direction_changes_type, metavar="N",
+                   help="differential and car-like vehicles: the most forward/reverse changes a drive between "
+                        "two stations may use; more is a 'maneuver' finding that cuts the pair (default: the "
+                        "site file's [motion] max_direction_changes, else 2)")
+
+
+def site_with_budget(site, args):
+    """The site with ``--max-direction-changes`` applied, when given."""
+    from dataclasses import replace
+
+    n = getattr(args, "max_direction_changes", None)
+    return site if n is None else replace(site, max_direction_changes=n)
 
 
 def add_heading_step_argument(p) -> None:

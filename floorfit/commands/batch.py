@@ -24,6 +24,9 @@ def add_arguments(p) -> None:
                    help="run the cells on this Dask distributed scheduler instead (e.g. tcp://host:8786); "
                         "needs the optional extra floorfit[dask]")
     p.add_argument("--out", default="floorfit-batch", metavar="DIR", help="output folder (default ./floorfit-batch)")
+    from floorfit.commands._common import add_budget_argument
+
+    add_budget_argument(p)           # overrides the manifest's [analysis] value and the site files'
     p.add_argument("--quiet", action="store_true", help="no progress output")
 
 
@@ -37,6 +40,10 @@ def run(args) -> int:
     if args.workers < 1:
         raise InputError(f"--workers must be at least 1, got {args.workers}", None, "--workers")
     manifest = read_manifest(args.manifest)
+    if getattr(args, "max_direction_changes", None) is not None:
+        from dataclasses import replace
+
+        manifest = replace(manifest, max_direction_changes=args.max_direction_changes)
 
     def progress(msg: str) -> None:
         if not args.quiet:

@@ -5,12 +5,14 @@ from __future__ import annotations
 from pathlib import Path
 
 from floorfit.commands._common import (
+    add_budget_argument,
     add_cache_argument,
     add_heading_step_argument,
     add_plan_arguments,
     apply_cache_option,
     check_output_first,
     load_plan_from_args,
+    site_with_budget,
 )
 
 NAME = "check"
@@ -27,6 +29,7 @@ def add_arguments(p) -> None:
     p.add_argument("--out", default="floorfit-report", metavar="DIR", help="output folder (default ./floorfit-report)")
     p.add_argument("--force", action="store_true", help="write into a folder that holds other files")
     add_heading_step_argument(p)
+    add_budget_argument(p)
     p.add_argument("--workers", type=int, default=None, metavar="N",
                    help="processes for the slices (default: all cores; the answer is the same for any number)")
     p.add_argument("--sweep", action="append", default=[], metavar="FROM:TO",
@@ -62,7 +65,7 @@ def check_and_report(args):
 
     # an output folder the writer would refuse is refused now, not after the whole computation
     check_output_first(args.out, args.force, args.plan, args.vehicle, getattr(args, "site", None))
-    site = _traffic_options(read_site(args.site) if args.site else Site(), args)
+    site = site_with_budget(_traffic_options(read_site(args.site) if args.site else Site(), args), args)
     extra = [parse_station_flag(s) for s in args.station]
     from floorfit.articulated import articulated_check, merge_into_result
 
@@ -147,6 +150,10 @@ def summary_text(result, written) -> str:
     for note in result.notes:
         lines.append(f"  note: {note}")
     s = result.settings
+    if s.get("max_direction_changes") is not None:
+        n = s["max_direction_changes"]
+        lines.append(f"  manoeuvre budget: {n} direction change{'s' if n != 1 else ''} per drive between two stations "
+                     f"(--max-direction-changes; [motion] max_direction_changes)")
     lines.append(f"  geometry within {s['tolerance_m'] * 1000:.0f} mm (sound bound: errs towards 'does not fit'); "
                  f"{s['headings']} heading slices; screening only, not a risk assessment")
     if "html" in written:

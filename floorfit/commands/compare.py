@@ -69,5 +69,9 @@ def run(args) -> int:
                                quiet=True)
     progress.done()
     print("\n".join(comparison.summary_lines()))
+    budget = comparison.before.settings.get("max_direction_changes")
+    if budget is not None:
+        print(f"  both layouts judged by drivable paths within {budget} direction change{'s' if budget != 1 else ''} "
+              f"per drive between two stations (--max-direction-changes)")
     print(f"comparison: {written['html']}")
     return 1 if comparison.after_worse else 0

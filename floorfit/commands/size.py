@@ -9,12 +9,14 @@ import time
 from pathlib import Path
 
 from floorfit.commands._common import (
+    add_budget_argument,
     add_cache_argument,
     add_heading_step_argument,
     add_plan_arguments,
     apply_cache_option,
     load_plan_from_args,
     parse_floats,
+    site_with_budget,
     write_json_atomic,
 )
 
@@ -28,12 +30,14 @@ __all__ = ["NAME", "HELP", "ORDER", "add_arguments", "run", "add_station_argumen
 
 
 def add_station_arguments(p) -> None:
-    """``--vehicle``, ``--site``, ``--station``, ``--heading-step``, ``--workers``, ``--quiet``."""
+    """``--vehicle``, ``--site``, ``--station``, ``--heading-step``, ``--max-direction-changes``, ``--workers``,
+    ``--quiet``."""
     p.add_argument("--vehicle", required=True, metavar="VEHICLE.toml", help="vehicle file")
     p.add_argument("--site", metavar="SITE.toml", help="site file: stations, layer roles, heading step")
     p.add_argument("--station", action="append", default=[], metavar="NAME=X,Y[,HEADING]",
                    help="a station (drawing frame, metres; heading in degrees if docking); repeatable")
     add_heading_step_argument(p)
+    add_budget_argument(p)
     p.add_argument("--workers", type=int, default=None, metavar="N",
                    help="processes for the slices (default: all cores; the answer is the same for any number)")
     p.add_argument("--quiet", action="store_true", help="no progress output")
@@ -45,7 +49,7 @@ def read_site_and_vehicle(args):
     from floorfit.plan.site import Site, parse_station_flag, read_site
     from floorfit.vehicles.rigid import load_vehicle
 
-    site = read_site(args.site) if args.site else Site()
+    site = site_with_budget(read_site(args.site) if args.site else Site(), args)
     flags = [parse_station_flag(s) for s in args.station]
     return site, load_vehicle(args.vehicle), flags
 
@@ -106,6 +110,10 @@ def run(args) -> int:
     print(f"  precision {result.precision_m:g} m, geometry within {result.tolerance_m * 1000:.0f} mm at "
           f"{result.heading_step_deg:g}° heading steps (sound bound: errs low){bracket}; monotone: "
           f"{result.monotone}; {result.evaluations} evaluations in {time.monotonic() - started:.1f} s")
+    if result.max_direction_changes is not None:
+        n = result.max_direction_changes
+        print(f"  judged by drivable paths within {n} direction change{'s' if n != 1 else ''} per station pair "
+              f"(--max-direction-changes)")
     if args.json:
         print(f"json: {args.json}")
     return 0 if result.fits_now else 1

@@ -15,6 +15,8 @@ Manifest (TOML, paths relative to the manifest's folder)::
 
     [analysis]                 # optional, for every cell
     heading_step = 5.0         # degrees (default: each site file's, else the check's default)
+    max_direction_changes = 2  # manoeuvre budget of differential and car-like vehicles (default:
+                               # each site file's [motion] value, else 2)
 
     [size]                     # optional: the sizing margin of each cell
     vary = "width"             # "width", "length" or "scale"
@@ -65,7 +67,7 @@ _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,63}$")
 _TOP = ("analysis", "size", "report", "site", "vehicle")
 _SITE = ("name", "plan", "site", "units")
 _VEHICLE = ("name", "file")
-_ANALYSIS = ("heading_step",)
+_ANALYSIS = ("heading_step", "max_direction_changes")
 _SIZE = ("vary", "precision")
 _REPORT = ("formats",)
 _FORMATS = ("html", "json", "csv", "dxf")
@@ -103,6 +105,8 @@ class CellSpec:
     size_vary: str | None = None
     size_precision_m: float = 0.01
     formats: tuple[str, ...] = _FORMATS
+    #: manoeuvre budget for every cell (None: each site file's [motion] max_direction_changes)
+    max_direction_changes: int | None = None
 
     @property
     def key(self) -> str:
@@ -120,12 +124,15 @@ class Manifest:
     size_vary: str | None = None
     size_precision_m: float = 0.01
     formats: tuple[str, ...] = _FORMATS
+    #: manoeuvre budget for every cell (None: each site file's [motion] max_direction_changes)
+    max_direction_changes: int | None = None
 
     def cells(self, out_dir: str | Path | None = None) -> list[CellSpec]:
         """One spec per (site, vehicle), sites in manifest order, then vehicles."""
         out = None if out_dir is None else Path(out_dir).resolve()
         return [CellSpec(s, v, None if out is None else str(out / f"{s.name}__{v.name}"),
-                         self.heading_step_deg, self.size_vary, self.size_precision_m, self.formats)
+                         self.heading_step_deg, self.size_vary, self.size_precision_m, self.formats,
+                         self.max_direction_changes)
                 for s in self.sites for v in self.vehicles]
 
 
@@ -191,6 +198,11 @@ def read_manifest(path: str | Path) -> Manifest:
         raise InputError("[analysis] must be a table", src, "analysis")
     check_keys(analysis, _ANALYSIS, src, "analysis.", InputError)
     step = get_number(analysis, "heading_step", src, "analysis.", InputError, minimum=0.1, maximum=90.0)
+    budget = None
+    if "max_direction_changes" in analysis:
+        from floorfit.plan.site import check_direction_changes
+
+        budget = check_direction_changes(analysis["max_direction_changes"], src, "analysis.max_direction_changes")
     size = data.get("size", {})
     if not isinstance(size, dict):
         raise InputError("[size] must be a table", src, "size")
@@ -223,14 +235,15 @@ def read_manifest(path: str | Path) -> Manifest:
         vehicles.append(VehicleEntry(name, _file(t, "file", base, src, where)))
     return Manifest(path=str(Path(path).resolve()), sites=tuple(sites), vehicles=tuple(vehicles),
                     heading_step_deg=step, size_vary=vary, size_precision_m=float(precision),
-                    formats=tuple(f for f in _FORMATS if f in formats or f == "json"))
+                    formats=tuple(f for f in _FORMATS if f in formats or f == "json"), max_direction_changes=budget)
 
 
 # -- one cell ------------------------------------------------------------------------------------
 def _blank(spec: CellSpec) -> dict[str, Any]:
     return {"site": spec.site.name, "vehicle": spec.vehicle.name, "status": "error", "passed": None,
             "stations": None, "unreachable_pairs": None, "findings": None, "sizing": None,
-            "report": None, "error": None, "tolerance_m": None, "heading_step_deg": None}
+            "report": None, "error": None, "tolerance_m": None, "heading_step_deg": None,
+            "max_direction_changes": None}
 
 
 def _one_line(exc: BaseException) -> str:
@@ -259,6 +272,10 @@ def _fill_cell(spec: CellSpec, record: dict[str, Any]) -> None:
     from floorfit.vehicles.rigid import load_vehicle
 
     site = read_site(spec.site.site) if spec.site.site else Site()
+    if spec.max_direction_changes is not None:
+        from dataclasses import replace
+
+        site = replace(site, max_direction_changes=spec.max_direction_changes)
     vehicle = load_vehicle(spec.vehicle.file)
     plan = load_plan(spec.site.plan, units=spec.site.units, roles=site.roles)
     stations = list(site.stations)
@@ -272,6 +289,7 @@ def _fill_cell(spec: CellSpec, record: dict[str, Any]) -> None:
         "findings": {k: sum(1 for f in result.findings if f.kind == k) for k in FINDING_KINDS},
         "tolerance_m": round(float(result.settings.get("tolerance_m", 0.0)), 6),
         "heading_step_deg": result.settings.get("heading_step_deg"),
+        "max_direction_changes": result.settings.get("max_direction_changes"),
     })
     if spec.out_dir is not None:
         from floorfit.report import write_report
