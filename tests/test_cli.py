@@ -108,7 +108,10 @@ def test_check_demo_site_fails_with_blocked_door_and_writes_report(demo, tmp_pat
     assert code == 1
     data = json.loads((out / "findings.json").read_text())
     kinds = sorted(f["kind"] for f in data["findings"])
-    assert kinds == ["blocked", "no-turn", "tight"]
+    assert kinds == ["blocked", "no-turn", "single-lane", "tight"]     # the demo site has a small fleet
+    lane = next(f for f in data["findings"] if f["kind"] == "single-lane")
+    assert lane["clear_width_m"] == pytest.approx(1.0, abs=1e-6) and lane["needed_width_m"] == pytest.approx(2.07)
+    assert (out / "traffic.csv").stat().st_size > 0
     blocked = next(f for f in data["findings"] if f["kind"] == "blocked")
     assert blocked["cuts_off"] == ["CHARGER"] and blocked["clear_width_m"] == pytest.approx(0.70, abs=1e-6)
     assert math.hypot(blocked["x"] - 35.35, blocked["y"] - 14.1) < 0.3
