@@ -288,3 +288,25 @@ def test_route_tries_the_slices_near_start_and_goal_first(tmp_path, capsys):
     assert "around start and goal only" not in answers["dock", 1][2]
     assert answers["door", 0][:2] == answers["door", 1][:2] == (1, "unreachable")
     assert "around start and goal only" not in answers["door", 0][2]      # decided on the whole drawing
+
+
+def test_route_reuses_cached_slices_of_the_whole_drawing(tmp_path, capsys, monkeypatch):
+    from floorfit.cli import main
+    from floorfit.demo import write_demo_site
+
+    demo = write_demo_site(tmp_path / "plans")
+    monkeypatch.setenv("FLOORFIT_CACHE", str(tmp_path / "cache"))
+    route = ["route", str(demo["plan"]), "--vehicle", str(demo["vehicle"]), "--start", "15,2.2,-90",
+             "--goal", "6.5,11,90", "--quiet"]
+    try:
+        assert main(route + ["--full-slices"]) == 0
+        first = capsys.readouterr().out
+        assert main(route) == 0
+        second = capsys.readouterr().out
+    finally:
+        from floorfit.cspace.slicecache import use_cache
+        use_cache(None)
+    assert "reused from the disk cache" in first and ", 0 reused" in first
+    # the whole drawing's slices are in the cache: no window, nothing built
+    assert "around start and goal only" not in second and "slices: 0 built" in second
+    assert first.splitlines()[:2] == second.splitlines()[:2]          # same answer, same path

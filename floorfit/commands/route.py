@@ -79,7 +79,7 @@ def _limits(args):
 
 def run(args) -> int:
     from floorfit.cspace.roadmap import build_roadmap
-    from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for, pool_size
+    from floorfit.cspace.slices import build_slices, cached_share, choose_headings, obstacles_for, pool_size
     from floorfit.motion.route_query import NOT_FOUND_WITHIN_LIMITS, find_route
     from floorfit.report.progress import Progress
     from floorfit.vehicles.rigid import load_vehicle
@@ -97,22 +97,27 @@ def run(args) -> int:
     # the slices find_route would build (start and goal headings get slices of their own),
     # built here so that each stage can be reported
     cells = choose_headings(plan, vehicle, heading_step_deg=args.heading_step, extra_headings=(start[2], goal[2]))
-    obstacles = obstacles_for(plan, vehicle)
-    window = None if getattr(args, "full_slices", False) else _lazy_window(plan, vehicle, obstacles, start, goal)
+    window = None if getattr(args, "full_slices", False) else _lazy_window(plan, vehicle, start, goal)
+    obstacles = None
+    if window is not None and cache is not None:
+        # slices of the whole drawing mostly in the cache (a check ran before): reuse them instead
+        obstacles = obstacles_for(plan, vehicle)
+        if cached_share(plan, vehicle, cells, obstacles) >= LAZY_CACHED_SHARE:
+            window = None
     result = slices = None
     if window is not None:
         # the slices near start and goal first: a route found there is a route in the plan
-        processes = pool_size(obstacles, len(cells), args.workers)
-        progress.stage(f"slices near start and goal: {len(cells)} headings on {processes} "
-                       f"process{'es' if processes > 1 else ''}")
+        progress.stage(f"slices near start and goal: {len(cells)} headings")
         slices = build_slices(plan, vehicle, cells=cells, workers=args.workers, window=window,
                               progress=progress.update)
-        progress.stage("roadmap and route search near start and goal")
+        progress.stage(f"roadmap and route search near start and goal ({slices.workers_used or 1} "
+                       f"process{'es' if slices.workers_used > 1 else ''} for the slices)")
         result = find_route(plan, vehicle, start, goal, heading_step_deg=args.heading_step, workers=args.workers,
                             limits=limits, slices=slices, roadmap=build_roadmap(slices), check_optimistic=False)
         if result.status not in LAZY_FINAL:
             result = None          # not settled near the poses: the whole drawing decides
     if result is None:
+        obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
         processes = pool_size(obstacles, len(cells), args.workers)
         progress.stage(f"slices: {len(cells)} headings on {processes} process{'es' if processes > 1 else ''}")
         slices = build_slices(plan, vehicle, cells=cells, workers=args.workers, obstacles=obstacles,
@@ -142,16 +147,19 @@ LAZY_FINAL = ("reachable", "start-blocked", "goal-blocked")
 LAZY_MARGIN_M = 3.0
 #: A window covering more than this share of the whole slice domain is not worth a first try.
 LAZY_MAX_SHARE = 0.5
+#: When the disk cache holds at least this share of the whole drawing's slices, those are used.
+LAZY_CACHED_SHARE = 0.5
 
 
-def _lazy_window(plan, vehicle, obstacles, start, goal):
+def _lazy_window(plan, vehicle, start, goal):
     """The rectangle (local frame, metres) around start and goal whose slices are tried first, or None."""
+    from floorfit.cspace.incremental import obstacles_bounds
     from floorfit.cspace.slices import slice_domain
 
     (sx, sy), (gx, gy) = plan.to_local(start[0], start[1]), plan.to_local(goal[0], goal[1])
     pad = LAZY_MARGIN_M + vehicle.radius_m
     win = (min(sx, gx) - pad, min(sy, gy) - pad, max(sx, gx) + pad, max(sy, gy) + pad)
-    domain = slice_domain(obstacles.bounds, vehicle)
+    domain = slice_domain(obstacles_bounds(plan, vehicle), vehicle)
     x0, y0, x1, y1 = domain.bounds
     cut = (max(win[0], x0), max(win[1], y0), min(win[2], x1), min(win[3], y1))
     if cut[0] >= cut[2] or cut[1] >= cut[3] or vehicle.mode == "fixed":

@@ -96,6 +96,10 @@ class SliceCache:
         _array_bytes(h, np.asarray(anchor, dtype=float))
         return self.folder / f"{h.hexdigest()[:40]}.wkb"
 
+    def has(self, job) -> bool:
+        """True when a slice for ``job`` is stored."""
+        return self._path(job).is_file()
+
     def get(self, job) -> np.ndarray | None:
         """The stored free-space components of ``job``, or None."""
         try:

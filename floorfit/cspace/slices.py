@@ -75,7 +75,7 @@ __all__ = ["SliceSet", "build_slices", "choose_headings", "obstacles_for", "obst
            "CLIP_GUARD_M", "MIN_COMPONENT_AREA_M2", "DOMAIN_PAD_M", "BOUNDS", "half_turn_twins",
            "CASCADE_MIN_RINGS", "CASCADE_GUARD_M", "CASCADE_LEAF", "CASCADE_FANOUT", "worker_count", "pool_size",
            "POOL_MIN_WORK",
-           "shared_jobs", "TWIN_GROW_TOL_M"]
+           "shared_jobs", "TWIN_GROW_TOL_M", "cached_share"]
 
 #: Free-space components smaller than this are dropped, square metres.
 MIN_COMPONENT_AREA_M2 = 1e-6
@@ -859,16 +859,22 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
         raise ValueError(f"bound must be one of {BOUNDS}")
     if cells is None:
         cells = choose_headings(plan, vehicle, heading_step_deg=heading_step_deg, extra_headings=extra_headings)
-    obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
     recipe = slice_recipe(plan, vehicle, cells, bound)
-    domain = slice_domain(obstacles.bounds, vehicle)
-    if window is not None:
+    if window is None:
+        obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
+        domain = slice_domain(obstacles.bounds, vehicle)
+    else:
         # free space inside the window only: the obstacles within the footprint's reach of it
         # give every C-obstacle that meets it (a C-obstacle O ⊕ (−F) lies within that reach of O)
-        domain = shapely.intersection(domain, box(*window))
+        walls, solids = obstacles_met(plan, vehicle)
+        parts = shapely.get_parts(solids) if len(solids) else solids       # as prepare_obstacles takes them
+        parts = parts[~shapely.is_empty(parts) & (shapely.area(parts) > 0)] if len(parts) else parts
+        met = np.concatenate([walls, parts]) if len(parts) else walls
+        b = shapely.bounds(met) if len(met) else np.zeros((1, 4))
+        whole = (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
+        domain = shapely.intersection(slice_domain(whole, vehicle), box(*window))
         if domain.is_empty or shapely.get_type_id(domain) != 3:
             raise ValueError(f"window {window} does not overlap the plan's slice domain")
-        walls, solids = obstacles_met(plan, vehicle)
         reach = recipe.radius * (1.0 + 1e-9) + 1e-6
         picked = []
         for geoms in (walls, solids):
@@ -902,6 +908,23 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
                     tolerance_m=recipe.tolerance, domain=domain, twins=twin,
                     workers_used=min(processes, max(1, len(todo))) if todo else 0,
                     reused=len(jobs) - len(todo))
+
+
+def cached_share(plan: Plan, vehicle: Vehicle, cells: HeadingCells, obstacles: ObstacleSet | None = None,
+                 bound: str = "sound") -> float:
+    """Share (0..1) of the slices :func:`build_slices` would compute that the disk cache already holds
+    (0 when the cache is off)."""
+    from floorfit.cspace.slicecache import active_cache_dir
+
+    if active_cache_dir() is None:
+        return 0.0
+    obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
+    recipe = slice_recipe(plan, vehicle, cells, bound)
+    domain = slice_domain(obstacles.bounds, vehicle)
+    labels = obstacle_clusters(obstacles, cluster_reach_m(recipe))
+    _, jobs = shared_jobs(recipe.jobs, half_turn_twins(cells, recipe.jobs))
+    cache = _slice_cache(obstacles, domain, labels)
+    return sum(cache.has(job) for job in jobs) / max(1, len(jobs))
 
 
 def _slice_cache(obstacles: ObstacleSet, domain: Polygon, labels: np.ndarray | None):
