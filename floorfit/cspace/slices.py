@@ -895,8 +895,9 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
             if hit is not None:
                 done[k] = hit
     todo = [(k, job) for k, job in zip(own.tolist(), jobs) if k not in done]
-    built = run_slice_jobs(obstacles, [job for _, job in todo], domain, labels, workers, progress,
-                           processes if len(todo) == len(jobs) else pool_size(obstacles, len(todo), workers))
+    if len(todo) < len(jobs):           # some came from the cache: the pool is sized for the rest
+        processes = pool_size(obstacles, len(todo), workers)
+    built = run_slice_jobs(obstacles, [job for _, job in todo], domain, labels, workers, progress, processes)
     for (k, job), c in zip(todo, built):
         done[k] = c
         if cache is not None:
