@@ -44,8 +44,8 @@ ROBOT = 'name = "0.6 x 0.8 differential"\n[footprint]\nwidth = 0.6\nlength = 0.8
 
 
 def route_poses(plan_path: Path, vehicle_path: Path) -> tuple[tuple, tuple] | None:
-    """Two poses (drawing frame, heading 0) far apart in the largest free region that does not reach the
-    edge of the slice domain (a room or a corridor system, not the space around the building)."""
+    """Two poses (drawing frame, heading 0) far apart in the largest free region at heading 0 within the
+    obstacles' extent (a room, a hall or a corridor system, not the space around the building)."""
     from floorfit import load_plan, load_vehicle
     from floorfit.cspace.headings import make_heading_cells
     from floorfit.cspace.slices import build_slices
@@ -53,20 +53,17 @@ def route_poses(plan_path: Path, vehicle_path: Path) -> tuple[tuple, tuple] | No
     plan = load_plan(plan_path)
     veh = load_vehicle(vehicle_path)
     sl = build_slices(plan, veh, cells=make_heading_cells(0.0, only=[0.0]))
-    comps = sl.components[0]
-    edge = sl.domain.boundary
-    inner = [c for c in comps if not c.intersects(edge.buffer(0.5))]
-    if not inner:
-        return None
-    best = max(inner, key=lambda c: c.area).buffer(-0.2)
-    parts = sorted(shapely.get_parts(best), key=lambda g: -g.area)
+    inside = shapely.box(*plan.local_bounds())
+    parts = [p for c in sl.components[0] for p in shapely.get_parts(shapely.intersection(c, inside).buffer(-0.2))
+             if shapely.get_type_id(p) == 3 and not p.is_empty]
     if not parts:
         return None
-    pts = shapely.get_coordinates(parts[0].exterior)
+    best = max(parts, key=lambda g: g.area)
+    pts = shapely.get_coordinates(best.exterior)
     a, b = pts[np.argmin(pts[:, 0] + pts[:, 1])], pts[np.argmax(pts[:, 0] + pts[:, 1])]
     ax, ay = plan.to_drawing(*a)
     bx, by = plan.to_drawing(*b)
-    return (round(ax, 3), round(ay, 3), 0.0), (round(bx, 3), round(by, 3), 0.0)
+    return (round(float(ax), 3), round(float(ay), 3), 0.0), (round(float(bx), 3), round(float(by), 3), 0.0)
 
 
 def baseline(plan_path: Path, vehicle_path: Path, samples: int) -> dict:
@@ -109,13 +106,14 @@ def measure(n: int, tmp: Path, samples: int, env_off: dict, env_cache: dict) -> 
     if poses:
         start, goal = (",".join(f"{v:g}" for v in p) for p in poses)
         row["route_poses"] = [start, goal]
-        r = run_process(_ff("route", plan, "--vehicle", veh, "--start", start, "--goal", goal), env=env_off)
+        # "--start=…": a pose with a negative x is not taken for an option
+        r = run_process(_ff("route", plan, "--vehicle", veh, f"--start={start}", f"--goal={goal}"), env=env_off)
         row["route"] = {k: r[k] for k in ("wall_s", "cpu_s", "peak_tree_mb", "returncode")}
         row["route"]["answer"] = r["stdout"].splitlines()[0] if r["stdout"] else ""
         # warm: the check fills a fresh cache, then the route reuses what it can
         run_process(_ff("check", plan, "--vehicle", veh, "--out", tmp / f"p{n}w", "--force", "--quiet"),
                     env=env_cache)
-        w = run_process(_ff("route", plan, "--vehicle", veh, "--start", start, "--goal", goal), env=env_cache)
+        w = run_process(_ff("route", plan, "--vehicle", veh, f"--start={start}", f"--goal={goal}"), env=env_cache)
         row["route_warm"] = {k: w[k] for k in ("wall_s", "cpu_s", "returncode")}
         row["route_warm"]["slices"] = next((ln.strip() for ln in w["stdout"].splitlines()
                                             if ln.strip().startswith("slices:")), "")
