@@ -28,7 +28,9 @@ ORIGIN = (1000.0, 2000.0)     # a drawing far from 0: every test also exercises 
 
 
 def _plan(walls=(), solids=()):
-    move = lambda g: shapely.affinity.translate(g, *ORIGIN)
+    def move(g):
+        return shapely.affinity.translate(g, *ORIGIN)
+
     return Plan.from_geometries(walls=[move(g) for g in walls], solids=[move(g) for g in solids], origin=ORIGIN)
 
 

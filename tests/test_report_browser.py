@@ -52,8 +52,8 @@ def test_figures_render_and_table_is_complete(browser, report, tmp_path):
     images = browser.execute_script(
         "return Array.from(document.images).map(i => [i.complete, i.naturalWidth, i.naturalHeight,"
         " i.getBoundingClientRect().width, i.getBoundingClientRect().height, i.alt]);")
-    # plan, turning map, free headings, swept paths, vehicle
-    assert len(images) == 5
+    # plan, turning map, free headings, swept paths, vehicle, and one close-up sheet per finding
+    assert len(images) == 5 + len(result.findings)
     for complete, nat_w, nat_h, box_w, box_h, alt in images:
         assert complete and nat_w > 100 and nat_h > 100, alt      # decoded, not broken
         assert box_w > 100 and box_h > 50, alt                    # laid out on the page

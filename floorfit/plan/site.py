@@ -59,8 +59,8 @@ from floorfit.errors import InputError, SiteError
 from floorfit.plan.stations import Station
 from floorfit.tomlcheck import check_keys, get_bool, get_number, get_string, read_toml
 
-__all__ = ["Site", "read_site", "parse_station_flag", "apply_height_ranges", "CLEARANCE_REFERENCES", "DEFAULT_PERSON_WIDTH_M",
-           "PROJECT_KEYS", "Traffic",
+__all__ = ["Site", "read_site", "parse_station_flag", "apply_height_ranges", "CLEARANCE_REFERENCES",
+           "DEFAULT_PERSON_WIDTH_M", "PROJECT_KEYS", "Traffic",
            "DEFAULT_HEADING_TOLERANCE_DEG", "stations_from_drawing", "DEFAULT_MAX_DIRECTION_CHANGES",
            "MAX_DIRECTION_CHANGES_LIMIT", "check_direction_changes"]
 
@@ -154,6 +154,25 @@ def read_site(path: str | Path) -> Site:
     site = Site(path=src)
     site.station_layer = get_string(data, "station_layer", src, "", SiteError)
     site.roles = roles_from_site_table({k: data[k] for k in ("layers", "blocks") if k in data}, src) or None
+    for read_table in (_read_stations, _read_clearance, _read_report_routes, _read_heights):
+        read_table(data, site, src)
+    site.project = _read_project(data.get("project", {}), src)
+    site.traffic = _read_traffic(data.get("traffic"), src)
+    analysis = data.get("analysis", {})
+    if not isinstance(analysis, dict):
+        raise SiteError("[analysis] must be a table", src, "analysis")
+    check_keys(analysis, _ANALYSIS, src, "analysis.", SiteError)
+    site.heading_step_deg = get_number(analysis, "heading_step", src, "analysis.", SiteError,
+                                       minimum=0.1, maximum=45.0)
+    site.person_width_m = get_number(analysis, "person_width", src, "analysis.", SiteError,
+                                     default=DEFAULT_PERSON_WIDTH_M, minimum=0.1, maximum=3.0)
+    site.envelope = _read_envelope(analysis.get("envelope", "auto"), src)
+    site.max_direction_changes = _read_motion(data.get("motion", {}), src)
+    return site
+
+
+def _read_stations(data: dict, site: Site, src: str) -> None:
+    """The [stations] table: NAME = { x, y [, heading, heading_tolerance] } (drawing frame, m, deg)."""
     stations = data.get("stations", {})
     if not isinstance(stations, dict):
         raise SiteError("[stations] must be a table of NAME = { x = .., y = .. }", src, "stations")
@@ -169,6 +188,10 @@ def read_site(path: str | Path) -> Site:
         tol = get_number(spec, "heading_tolerance", src, where + ".", SiteError,
                          default=DEFAULT_HEADING_TOLERANCE_DEG, minimum=0.0, maximum=180.0)
         site.stations.append(Station(name, x, y, h, tol))
+
+
+def _read_clearance(data: dict, site: Site, src: str) -> None:
+    """The [clearance] table: required clearance (m) and the reference it comes from."""
     clearance = data.get("clearance", {})
     if not isinstance(clearance, dict):
         raise SiteError("[clearance] must be a table", src, "clearance")
@@ -180,6 +203,10 @@ def read_site(path: str | Path) -> Site:
     if req is not None:
         site.required_clearance_m = req
         site.clearance_reference = ref or "site file"
+
+
+def _read_report_routes(data: dict, site: Site, src: str) -> None:
+    """The [report] table: station pairs whose drivable routes the report draws."""
     report = data.get("report", {})
     if not isinstance(report, dict):
         raise SiteError("[report] must be a table", src, "report")
@@ -189,6 +216,10 @@ def read_site(path: str | Path) -> Site:
             raise SiteError(f"route {i + 1} must be [\"FROM\", \"TO\"] station names, got {pair!r}", src,
                             "report.routes")
         site.routes.append((pair[0], pair[1]))
+
+
+def _read_heights(data: dict, site: Site, src: str) -> None:
+    """The [heights] table: layer pattern = [bottom, top] in metres above the floor."""
     heights = data.get("heights", {})
     if not isinstance(heights, dict):
         raise SiteError("[heights] must be a table of layer pattern = [bottom, top]", src, "heights")
@@ -201,19 +232,6 @@ def read_site(path: str | Path) -> Site:
         if not (math.isfinite(lo) and lo >= 0 and hi > lo):
             raise SiteError(f"need 0 ≤ bottom < top (metres), got [{lo:g}, {hi:g}]", src, where)
         site.heights[pattern] = (lo, hi)
-    site.project = _read_project(data.get("project", {}), src)
-    site.traffic = _read_traffic(data.get("traffic"), src)
-    analysis = data.get("analysis", {})
-    if not isinstance(analysis, dict):
-        raise SiteError("[analysis] must be a table", src, "analysis")
-    check_keys(analysis, _ANALYSIS, src, "analysis.", SiteError)
-    site.heading_step_deg = get_number(analysis, "heading_step", src, "analysis.", SiteError,
-                                       minimum=0.1, maximum=45.0)
-    site.person_width_m = get_number(analysis, "person_width", src, "analysis.", SiteError,
-                                     default=DEFAULT_PERSON_WIDTH_M, minimum=0.1, maximum=3.0)
-    site.envelope = _read_envelope(analysis.get("envelope", "auto"), src)
-    site.max_direction_changes = _read_motion(data.get("motion", {}), src)
-    return site
 
 
 def _read_motion(table: Any, src: str) -> int:
