@@ -20,11 +20,10 @@ from floorfit.errors import InputError
 from floorfit.motion import arc, rotate, rotate_and_drive, sample, straight
 from floorfit.motion.drivable import (
     DriveLimits,
-    SliceMotionCheck,
-    chord_error_m,
     drive_tolerance_m,
     segment_dicts,
 )
+from floorfit.motion.slice_checks import SliceMotionCheck, chord_error_m
 from floorfit.plan.model import Plan
 
 ARC_R = 1.0

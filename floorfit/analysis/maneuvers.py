@@ -52,13 +52,11 @@ from floorfit.motion.drivable import (
     NOT_FOUND,
     DriveLimits,
     DrivePlan,
-    SliceMotionCheck,
-    chord_error_m,
-    plan_car,
-    reference_grid,
     segment_dicts,
 )
+from floorfit.motion.drivable_car import plan_car, reference_grid
 from floorfit.motion.route_query import differential_plan, route_in_slices
+from floorfit.motion.slice_checks import SliceMotionCheck, chord_error_m
 from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import Vehicle
 
@@ -133,7 +131,7 @@ class _Context:
     def exact(self):
         """One exact slice check shared by the differential conversions of every pair."""
         if self._exact is None:
-            from floorfit.motion.drivable import ExactSliceCheck
+            from floorfit.motion.slice_checks import ExactSliceCheck
             self._exact = ExactSliceCheck(self.slices, self.limits.path_step_m, self.limits.path_step_deg)
         return self._exact
 

@@ -13,8 +13,9 @@ Modules: :mod:`~floorfit.motion.segments` (path pieces), :mod:`~floorfit.motion.
 (search for cars), :mod:`~floorfit.motion.rotate_drive` (differential bases),
 :mod:`~floorfit.motion.grid_heuristic`, :mod:`~floorfit.motion.swept`.
 :mod:`~floorfit.motion.drivable` (turns the holonomic roadmap's answers into paths a
-differential or car-like base can drive) and :mod:`~floorfit.motion.route_query` (route
-queries between two poses: the ``floorfit route`` answer).
+differential or car-like base can drive; the car search in :mod:`~floorfit.motion.drivable_car`,
+the collision checks against the slices in :mod:`~floorfit.motion.slice_checks`) and
+:mod:`~floorfit.motion.route_query` (route queries between two poses: the ``floorfit route`` answer).
 
 Stage 4 of the pipeline. May import: :mod:`floorfit.cspace`, :mod:`floorfit.vehicles`,
 :mod:`floorfit.plan`, :mod:`floorfit.errors`.

@@ -39,13 +39,12 @@ from floorfit.errors import InputError
 from floorfit.motion.drivable import (
     NOT_FOUND,
     DriveLimits,
-    ExactSliceCheck,
-    chord_error_m,
     drive_tolerance_m,
-    plan_car,
     plan_differential,
     segment_dicts,
 )
+from floorfit.motion.drivable_car import plan_car
+from floorfit.motion.slice_checks import ExactSliceCheck, chord_error_m
 from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import Vehicle
 
@@ -438,13 +437,13 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
     a roadmap cell where the manoeuvres became too many (:func:`_convert`).
     ``holonomic_local`` is accepted for compatibility (the route is recomputed). Returns a
     :class:`floorfit.motion.drivable.DrivePlan`. ``check``: a shared
-    :class:`floorfit.motion.drivable.ExactSliceCheck` (optional). ``accept_changes``: a path found
+    :class:`floorfit.motion.slice_checks.ExactSliceCheck` (optional). ``accept_changes``: a path found
     with at most this many direction changes is returned as it is, without the search for one with
     fewer (a manoeuvre budget only asks whether the vehicle stays within it).
     """
     import time
 
-    from floorfit.motion.drivable import ExactSliceCheck
+    from floorfit.motion.slice_checks import ExactSliceCheck
 
     t0 = time.perf_counter()
     if deadline is None and limits.time_limit_s is not None:
@@ -473,7 +472,8 @@ def _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline):
     import time
     from dataclasses import replace
 
-    from floorfit.motion.drivable import FOUND, DrivePlan, finish_plan, plan_car
+    from floorfit.motion.drivable import FOUND, DrivePlan, finish_plan
+    from floorfit.motion.drivable_car import plan_car
     from floorfit.motion.subdivision import arcs_as_turns, differential_steer, shortcut_differential
 
     budget = None if deadline is None else deadline - time.perf_counter()

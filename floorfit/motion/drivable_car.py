@@ -1,0 +1,317 @@
+"""Drivable paths for car-like bases: hybrid A* with analytic shortcuts, then the subdivision fallback.
+
+This module owns the ``car`` mode of the drive conversion (straight segments and circular arcs
+of radius ``min_turn_radius`` at the reference point, forward and, if allowed, in reverse):
+:func:`plan_car` (hybrid A* with Reeds–Shepp or Dubins completions,
+:func:`floorfit.motion.plan_car_path`, on the 2-D heuristic of :func:`reference_grid`, then for a
+car that may reverse the Reeds–Shepp subdivision of the holonomic route,
+:func:`plan_car_subdivision`) and the shortcut pass :func:`shortcut_car_path`. Poses are in the
+plan's local frame, metres and degrees (radians inside the searches); limits and answers are
+the :class:`floorfit.motion.drivable.DriveLimits` and :class:`floorfit.motion.drivable.DrivePlan`
+of :mod:`floorfit.motion.drivable`, the collision checks those of :mod:`floorfit.motion.slice_checks`.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import replace
+
+import numpy as np
+from scipy import ndimage
+
+from floorfit.cspace.headings import wrap_deg
+from floorfit.cspace.raster import fill_polygons
+from floorfit.cspace.slices import SliceSet
+from floorfit.errors import InputError
+from floorfit.motion import (
+    OccupancyGrid,
+    Segment,
+    direction_changes,
+    dubins_words,
+    grid_heuristic,
+    merge_segments,
+    plan_car_path,
+    reeds_shepp_words,
+    sample,
+)
+from floorfit.motion._words import word_segments
+from floorfit.motion.drivable import (
+    FOUND,
+    NOT_FOUND,
+    DriveLimits,
+    DrivePlan,
+    _limit_reason,
+    finish_plan,
+    plan_differential,
+)
+from floorfit.motion.slice_checks import ExactSliceCheck, SliceMotionCheck, chord_error_m
+from floorfit.motion.subdivision import (
+    redo,
+    reeds_shepp_steer,
+    shortcut_car,
+    subdivide,
+)
+from floorfit.vehicles.rigid import Vehicle
+
+__all__ = [
+    "plan_car",
+    "plan_car_subdivision",
+    "reference_grid",
+    "shortcut_car_path",
+]
+
+#: Shortcuts tried per pair of path poses (the best Reeds–Shepp / Dubins words).
+SHORTCUT_WORDS = 3
+#: A car path longer than this many segments is not shortcut (the pass is quadratic).
+SHORTCUT_MAX_SEGMENTS = 40
+#: Largest default cell width of the car search, metres (else a quarter of the turning radius):
+#: coarser cells miss the short moves of a multi-point turn in an aisle.
+DEFAULT_XY_RESOLUTION_M = 0.25
+#: The heuristic grid of the car search has at most this many cells (its cell grows on big sites).
+GRID_MAX_CELLS = 250_000
+#: The limits of the car searches when none are given (frozen, so one instance serves every call).
+_DEFAULT_LIMITS = DriveLimits()
+
+
+def plan_car_subdivision(slices: SliceSet, vehicle: Vehicle, holonomic_local, *, limits: DriveLimits = _DEFAULT_LIMITS,
+                         check: ExactSliceCheck | None = None, deadline: float | None = None,
+                         differential=None) -> DrivePlan:
+    """Car path for a car that may reverse, complete relative to the holonomic analysis up to the limits.
+
+    The holonomic route is first made into rotations in place and straight drives
+    (:func:`plan_differential`, or ``differential(deadline) -> DrivePlan`` when given: the
+    straights are car moves already); each rotation in place
+    is then replaced by Reeds–Shepp pieces, splitting it in halves where they collide
+    (Laumond et al. 1994: Reeds–Shepp curves have the topological property, and a short
+    rotation's curves stay near its point); finally Reeds–Shepp shortcuts
+    (:func:`floorfit.motion.subdivision.shortcut_car`) remove most of the manoeuvring. Status
+    ``"not-found-within-limits"`` only when ``max_split_depth``, ``max_steering_checks`` or
+    ``time_limit_s`` was reached (named in the reason).
+    """
+    t0 = time.perf_counter()
+    radius = float(vehicle.min_turn_radius_m)
+    way = np.array(holonomic_local, dtype=float).reshape(-1, 3)
+    start, goal = tuple(way[0]), tuple(way[-1])
+    exact = check or ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
+    if differential is not None:
+        diff = differential(deadline)
+    else:
+        diff = plan_differential(slices, way, reverse=True, limits=limits, check=exact, deadline=deadline)
+    if not diff.found:
+        diff.reason = diff.reason.replace("rotate-and-drive path", "path of straights and turns")
+        return diff
+    steer = reeds_shepp_steer(radius)
+    out: list[Segment] = []
+    pose = diff.segments[0].start
+    depth = 0
+    for seg in diff.segments:
+        if seg.kind != "rotate":
+            out.append(redo(seg, pose))
+            pose = out[-1].end
+            continue
+        target = (pose[0], pose[1], pose[2] + math.radians(seg.angle_deg))
+        res = subdivide([pose, target], steer=steer, free=exact.free, max_depth=limits.max_split_depth,
+                        max_checks=limits.max_steering_checks, deadline=deadline)
+        if res.segments is None:
+            name = {"max_depth": "max_split_depth", "max_checks": "max_steering_checks"}.get(res.limit, res.limit)
+            return DrivePlan(NOT_FOUND, reason=f"no Reeds–Shepp manoeuvre replaces the turn in place at "
+                             f"({pose[0]:.2f}, {pose[1]:.2f}): " + _limit_reason(name, res.reason),
+                             elapsed_s=time.perf_counter() - t0, limit=name)
+        depth = max(depth, res.depth)
+        out += res.segments
+        pose = out[-1].end
+    segs = shortcut_car(out, free=exact.free, radius_m=radius, reverse_factor=limits.reverse_cost_factor,
+                        change_cost=limits.direction_change_cost_m, deadline=deadline)
+    plan = DrivePlan(FOUND, segments=segs, reason=f"straights of the holonomic route with Reeds–Shepp manoeuvres "
+                     f"for its turns (subdivision, {depth} halvings at most), shortened",
+                     elapsed_s=time.perf_counter() - t0)
+    return finish_plan(plan, exact, limits, start, goal)
+
+
+def reference_grid(slices: SliceSet, cell_m: float) -> OccupancyGrid:
+    """Where the reference point can be at some heading (union of the slices' free space),
+    on a grid of ``cell_m`` (grown until it has at most :data:`GRID_MAX_CELLS` cells), dilated by one
+    cell so that narrow passages stay open. A search heuristic only (local frame)."""
+    x0, y0, x1, y1 = slices.domain.bounds
+    cell = float(cell_m)
+    while math.ceil((x1 - x0) / cell) * math.ceil((y1 - y0) / cell) > GRID_MAX_CELLS:
+        cell *= 1.5
+    nx = max(1, math.ceil((x1 - x0) / cell))
+    ny = max(1, math.ceil((y1 - y0) / cell))
+    free = np.zeros((ny, nx), dtype=bool)
+    for comps in slices.components:
+        if len(comps):
+            free |= fill_polygons(comps, x0, y0, cell, nx, ny)
+    free = ndimage.binary_dilation(free, structure=np.ones((3, 3), bool))
+    return OccupancyGrid(free=free, origin=(x0 + 0.5 * cell, y0 + 0.5 * cell), cell_m=cell)
+
+
+def _path_cost(segments, reverse_factor: float, change_cost: float) -> float:
+    """The car search's cost (m): length, reverse distance times ``reverse_factor``, plus
+    ``change_cost`` per change of direction."""
+    length = sum(sg.length_m * (reverse_factor if sg.direction == "reverse" else 1.0) for sg in segments)
+    return length + change_cost * direction_changes(segments)
+
+
+def shortcut_car_path(segments: list[Segment], *, radius_m: float, reverse: bool, check: SliceMotionCheck,
+                      step_m: float, step_deg: float, reverse_cost_factor: float = 2.0,
+                      direction_change_cost_m: float | None = None) -> list[Segment]:
+    """Improve a car path by replacing runs of segments with analytic curves (local frame, radians).
+
+    From each segment boundary, the farthest later boundary that one of the
+    :data:`SHORTCUT_WORDS` cheapest Reeds–Shepp (``reverse``) or Dubins curves reaches at a
+    lower cost than the run it replaces (the search's cost: length, reverse distance times
+    ``reverse_cost_factor``, ``direction_change_cost_m`` per change of direction, default
+    twice the radius) replaces that run when its samples pass ``check``. The search grid
+    leaves zig-zags and needless cusps; every replacement is checked like the search's
+    own moves, so the collision guarantee holds.
+    """
+    segs = merge_segments(segments)
+    if len(segs) < 2 or len(segs) > SHORTCUT_MAX_SEGMENTS:
+        return segs
+    change = 2.0 * radius_m if direction_change_cost_m is None else float(direction_change_cost_m)
+
+    def cost(run):
+        return _path_cost(run, reverse_cost_factor, change)
+
+    words_of = reeds_shepp_words if reverse else dubins_words
+    poses = [segs[0].start] + [sg.end for sg in segs]
+    n = len(segs)
+    out: list[Segment] = []
+    i = 0
+    while i < n:
+        done = False
+        for j in range(n, i + 1, -1):
+            old = cost(segs[i:j])
+            cands = []
+            for word in words_of(poses[i], poses[j], radius_m):
+                new = word_segments(poses[i], word, radius_m)
+                c = cost(new)
+                if new and c < old - 1e-9:
+                    cands.append((c, new))
+            for _, new in sorted(cands, key=lambda item: item[0])[:SHORTCUT_WORDS]:
+                end = new[-1].end
+                if math.hypot(end[0] - poses[j][0], end[1] - poses[j][1]) > 1e-6 or \
+                        abs(float(wrap_deg(math.degrees(end[2] - poses[j][2])))) > 1e-6:
+                    continue
+                if bool(check.is_free(sample(new, step_m, step_deg)).all()):
+                    out.extend(new)
+                    i, done = j, True
+                    break
+            if done:
+                break
+        if not done:
+            out.append(segs[i])
+            i += 1
+    return merge_segments(out)
+
+
+def _search_limit(reason: str) -> str:
+    """The DriveLimits field named in a hybrid A* reason, or "" when the search ran out of cells."""
+    for name in ("max_expansions", "time_limit_s"):
+        if f"({name})" in reason:
+            return name
+    return ""
+
+
+def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, reverse: bool | None = None,
+             limits: DriveLimits = _DEFAULT_LIMITS, grid: OccupancyGrid | None = None,
+             check: SliceMotionCheck | None = None, holonomic_local=None,
+             exact: ExactSliceCheck | None = None, differential=None) -> DrivePlan:
+    """Car path (arcs at ``vehicle.min_turn_radius_m`` and straights) between local poses
+    (x m, y m, heading deg).
+
+    First hybrid A* (:func:`floorfit.motion.plan_car_path`): with reverse and a holonomic route
+    ``holonomic_local`` given, for at most ``limits.first_search_expansions``; then, for a car that may
+    reverse, the Reeds–Shepp subdivision of the holonomic route (:func:`plan_car_subdivision`;
+    ``differential(deadline)`` may give its straights-and-turns plan, see there),
+    which is complete relative to the holonomic analysis. Found paths are shortened with
+    Reeds–Shepp shortcuts checked exactly (:class:`ExactSliceCheck`).
+
+    ``reverse`` defaults to ``vehicle.reverse``; with it the completions are Reeds–Shepp
+    curves, without it Dubins curves. ``grid``: the 2-D heuristic (default
+    :func:`reference_grid` at a quarter of the turning radius, at least 0.1 m).
+    ``check``: a :class:`SliceMotionCheck` of these slices to share between calls (its
+    steps must be those of ``limits`` and its extra margin the chord error of the path);
+    ``exact``: an :class:`ExactSliceCheck` to share.
+    """
+    radius = vehicle.min_turn_radius_m
+    if radius is None or not radius > 0:
+        raise InputError(f"vehicle '{vehicle.name}' has no min_turn_radius; a car-like vehicle needs one",
+                         vehicle.source, "motion.min_turn_radius")
+    rev = vehicle.reverse if reverse is None else bool(reverse)
+    t0 = time.perf_counter()
+    deadline = None if limits.time_limit_s is None else t0 + limits.time_limit_s
+    fallback = rev and (holonomic_local is not None or differential is not None)
+    search_limits = limits
+    if fallback:
+        search_limits = replace(limits, max_expansions=min(limits.max_expansions, limits.first_search_expansions))
+    exact = exact or ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
+    plan = _plan_car_search(slices, vehicle, start_local, goal_local, rev, search_limits, grid, check,
+                            limits.time_limit_s, exact, deadline)
+    if plan.found or not fallback:
+        if not plan.found:
+            plan.limit = _search_limit(plan.reason)
+        plan.elapsed_s = time.perf_counter() - t0
+        return plan
+    way = holonomic_local if holonomic_local is not None else [start_local, goal_local]
+    sub = plan_car_subdivision(slices, vehicle, way, limits=limits, check=exact, deadline=deadline,
+                               differential=differential)
+    sub.expansions = plan.expansions
+    sub.poses_checked = plan.poses_checked
+    searched = "hybrid A* " + (plan.reason or "found nothing")
+    if _search_limit(plan.reason) == "max_expansions" and search_limits.max_expansions < limits.max_expansions:
+        searched = f"hybrid A* stopped after {search_limits.max_expansions} expansions (first_search_expansions)"
+    sub.reason = f"{sub.reason}; {searched}"
+    sub.elapsed_s = time.perf_counter() - t0
+    return sub
+
+
+def _plan_car_search(slices, vehicle, start_local, goal_local, rev, limits, grid, check, time_limit_s, exact,
+                     deadline) -> DrivePlan:
+    radius = vehicle.min_turn_radius_m
+    t0 = time.perf_counter()
+    check = check or SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg,
+                                      extra_margin_m=chord_error_m(radius, limits.path_step_m))
+    if check.margin_m < 0.5 * limits.check_step_m + chord_error_m(radius, limits.path_step_m):
+        raise ValueError("the shared check's margin is smaller than these limits need")
+    before = check.poses_checked
+    if grid is None:
+        grid = reference_grid(slices, max(0.1, radius / 4.0))
+    s = (float(start_local[0]), float(start_local[1]), math.radians(float(start_local[2])))
+    g = (float(goal_local[0]), float(goal_local[1]), math.radians(float(goal_local[2])))
+    res = limits.xy_resolution_m if limits.xy_resolution_m is not None else min(radius / 4.0, DEFAULT_XY_RESOLUTION_M)
+    # primitives must be much longer than the check spacing (see SliceMotionCheck.windows)
+    res = max(res, 4.0 * limits.check_step_m)
+    grid_h = grid_heuristic(grid, g[:2])
+    weight = float(limits.heuristic_weight)
+    result = plan_car_path(s, g, min_turn_radius=radius, reverse=rev, is_free=check.is_free,
+                           bounds=slices.domain.bounds,
+                           goal_tolerance=(limits.goal_tolerance_m, math.radians(limits.goal_tolerance_deg)),
+                           xy_resolution=res, heading_bins=limits.heading_bins,
+                           max_expansions=limits.max_expansions, time_limit_s=time_limit_s,
+                           heuristic_grid=lambda xy: weight * grid_h(xy), step_m=limits.check_step_m,
+                           step_deg=limits.check_step_deg, reverse_cost_factor=limits.reverse_cost_factor,
+                           direction_change_cost_m=limits.direction_change_cost_m)
+    plan = DrivePlan(FOUND if result.status == "found" else NOT_FOUND, segments=list(result.segments),
+                     reason=result.reason, expansions=result.expansions,
+                     elapsed_s=time.perf_counter() - t0, poses_checked=check.poses_checked - before)
+    if not plan.found:
+        return plan
+    segs = plan.segments
+    if rev:
+        segs = shortcut_car(segs, free=exact.free, radius_m=radius, reverse_factor=limits.reverse_cost_factor,
+                            change_cost=limits.direction_change_cost_m, deadline=deadline)
+    else:
+        segs = shortcut_car_path(segs, radius_m=radius, reverse=rev, check=check,
+                                 step_m=limits.check_step_m, step_deg=limits.check_step_deg,
+                                 reverse_cost_factor=limits.reverse_cost_factor,
+                                 direction_change_cost_m=limits.direction_change_cost_m)
+    if not exact.free(segs):       # the sampled checks are sound, so this does not happen
+        return DrivePlan(NOT_FOUND, reason="internal: a searched path failed the exact check",
+                         expansions=result.expansions, elapsed_s=time.perf_counter() - t0)
+    plan.segments = segs
+    plan.elapsed_s = time.perf_counter() - t0
+    plan.poses_checked = check.poses_checked - before
+    return finish_plan(plan, check, limits, start_local, goal_local)
