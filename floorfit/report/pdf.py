@@ -35,7 +35,9 @@ from matplotlib.patches import Rectangle
 
 from floorfit import __version__
 from floorfit.analysis.findings import FINDING_KINDS
+from floorfit.report.bounding_entities import sheet_obstacles
 from floorfit.report.cautions import CAUTIONS, CLEARANCE_REFERENCES, tolerance_statement
+from floorfit.report.closeup import draw_closeup
 from floorfit.report.figures import (
     TURN_CLASSES,
     _draw_finding_geometry,
@@ -46,7 +48,7 @@ from floorfit.report.figures import (
 )
 from floorfit.report.kinds import kind_style, plain_text
 from floorfit.report.project import ProjectInfo, TitleBlock, source_datetime, title_block
-from floorfit.report.sheets import Sheet, build_sheets, draw_closeup, sheet_obstacles
+from floorfit.report.sheets import Sheet, build_sheets
 from floorfit.report.tables import station_names, unreachable_pairs
 
 __all__ = ["PAPERS", "PageLayout", "page_layout", "render_pdf", "FOOTER_CAUTION", "appendix_page_count"]

@@ -1,10 +1,12 @@
 """One sheet per finding: a close-up drawn to a standard scale, the vehicle at the deciding pose,
 dimension lines, the drawing entities that bound the place, what it cuts off, and the remedy.
 
-:func:`build_sheets` computes what each sheet shows (drawing frame, metres); :func:`draw_closeup`
-draws the close-up into a matplotlib axes whose size on paper is known, so that the drawing is
-true to scale (1 m in the drawing is ``1000 / scale`` mm on the sheet); :func:`closeup_figure`
-makes the same close-up as a figure of its own for the HTML report.
+:func:`build_sheets` computes what each sheet shows (drawing frame, metres);
+:func:`floorfit.report.closeup.draw_closeup` draws the close-up into a matplotlib axes whose size on paper
+is known, so that the drawing is true to scale (1 m in the drawing is ``1000 / scale`` mm on the
+sheet); :func:`floorfit.report.closeup.closeup_figure` makes the same close-up as a figure of its
+own for the HTML report. The drawing entities that bound a place are looked up in
+:mod:`floorfit.report.bounding_entities`.
 
 The deciding pose per finding kind:
 
@@ -25,26 +27,17 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-import matplotlib
-
-matplotlib.use("Agg")  # noqa: E402
-
 import numpy as np
 import shapely
 import shapely.affinity
 import shapely.ops
-from matplotlib.collections import LineCollection
-from matplotlib.figure import Figure
-from matplotlib.patches import Circle, PathPatch, Rectangle
 
 from floorfit.analysis.passages import min_width
-from floorfit.report.figures import _line_segments, _polygon_path
-from floorfit.report.geometry import parts
-from floorfit.report.kinds import kind_style, numbered_findings, plain_text
+from floorfit.report.bounding_entities import Bound, _doorway_bound, _Obstacles
+from floorfit.report.kinds import numbered_findings, plain_text
 from floorfit.report.remedies import Remedy, RemedyContext, compute_remedy
 
-__all__ = ["SCALES", "CONTEXT_M", "Sheet", "Bound", "Pose", "Dimension", "build_sheets", "choose_scale",
-           "draw_closeup", "closeup_figure", "VIEWPORT_MM"]
+__all__ = ["SCALES", "CONTEXT_M", "Sheet", "Pose", "Dimension", "build_sheets", "choose_scale", "VIEWPORT_MM"]
 
 #: Standard architectural scales, largest drawing first.
 SCALES = (20, 25, 50, 100, 200)
@@ -53,37 +46,8 @@ CONTEXT_M = 2.0
 #: Size of the close-up on a landscape A4 sheet, millimetres (width, height).
 VIEWPORT_MM = (178.0, 128.0)
 
-_WALL = "#20262c"
-_SOLID_FACE = "#b9bec4"
-_OVERHEAD = "#7d8790"
-_DOOR = "#13876a"
-_POSE_FACE = "#dfe9f3"
-_POSE_EDGE = "#1b3d5c"
-_DIM = "#22313f"
 _CIRCLE_NEED = "#8a3d8f"
 _CIRCLE_HAVE = "#13876a"
-
-
-@dataclass(frozen=True)
-class Bound:
-    """A drawing entity that bounds the place: which side, what, on which layer, its handle."""
-
-    side: str
-    entity: str          # "linework", "solid", "doorway", "overhead"
-    layer: str
-    handle: str | None
-    distance_m: float
-    x: float
-    y: float
-    id_name: str = "handle"
-
-    def text(self) -> str:
-        if self.handle:
-            handle = f"handle #{self.handle}" if self.id_name == "handle" else f"{self.id_name} {self.handle}"
-        else:
-            handle = "handle not kept by the importer"
-        layer = f"layer {self.layer}" if self.layer else "no layer"
-        return (f"{self.side}: {self.entity} on {layer}, {handle}, nearest point ({self.x:.2f}, {self.y:.2f}) m")
 
 
 @dataclass(frozen=True)
@@ -140,77 +104,6 @@ def choose_scale(width_m: float, height_m: float, viewport_mm: tuple[float, floa
         if width_m * 1000.0 / s <= viewport_mm[0] + 1e-9 and height_m * 1000.0 / s <= viewport_mm[1] + 1e-9:
             return s, False
     return SCALES[-1], True
-
-
-# -- obstacles with their layers and handles ------------------------------------------------------
-class _Obstacles:
-    def __init__(self, plan: Any):
-        self.plan = plan
-        walls, solids = list(plan.walls), list(plan.solids)
-        self.geoms = np.asarray(walls + solids, dtype=object)
-        self.kind = np.array(["linework"] * len(walls) + ["solid"] * len(solids), dtype=object)
-        self.layer = np.concatenate([np.asarray(plan.wall_layers, dtype=object),
-                                     np.asarray(plan.solid_layers, dtype=object)]) if len(self.geoms) \
-            else np.zeros(0, dtype=object)
-        # the entity each obstacle came from: DXF handles, or element ids of a building model
-        handles: list[str | None] = [None] * len(self.geoms)
-        self.id_name = "handle"
-        sources = (("wall_ids", "solid_ids", "element id"), ("wall_handles", "solid_handles", "handle"))
-        for w_key, s_key, name in sources:
-            wh, sh = getattr(plan, w_key, None), getattr(plan, s_key, None)
-            if wh is not None and len(wh) == len(walls):
-                handles[:len(walls)] = [None if h is None or h == "" else str(h) for h in wh]
-                self.id_name = name
-            if sh is not None and len(sh) == len(solids):
-                handles[len(walls):] = [None if h is None or h == "" else str(h) for h in sh]
-                self.id_name = name
-        self.handle = handles
-        heights = np.concatenate([np.asarray(plan.wall_heights).reshape(-1, 2),
-                                  np.asarray(plan.solid_heights).reshape(-1, 2)])
-        self.bottom = heights[:, 0] if len(heights) else np.zeros(0)
-        self.floor = self.bottom <= 0
-        self.tree = shapely.STRtree(self.geoms) if len(self.geoms) else None
-        floor_geoms = self.geoms[self.floor] if len(self.geoms) else self.geoms
-        self.floor_union = shapely.STRtree(floor_geoms) if len(floor_geoms) else None
-        self.floor_geoms = floor_geoms
-
-    def in_box(self, box: tuple[float, float, float, float]) -> np.ndarray:
-        if self.tree is None:
-            return np.zeros(0, dtype=int)
-        return np.sort(self.tree.query(shapely.box(*box)))
-
-    def nearest_bound(self, side: str, lx: float, ly: float, *, floor_only: bool = True) -> Bound | None:
-        if self.tree is None:
-            return None
-        p = shapely.Point(lx, ly)
-        idx = self.tree.query(p.buffer(0.05))
-        cand = [int(i) for i in idx if not floor_only or self.floor[int(i)]]
-        if not cand:
-            near = self.tree.query_nearest(p, max_distance=5.0)
-            cand = [int(i) for i in near if not floor_only or self.floor[int(i)]]
-        if not cand:
-            return None
-        d = [self.geoms[i].distance(p) for i in cand]
-        i = cand[int(np.argmin(d))]
-        q = shapely.ops.nearest_points(self.geoms[i], p)[0]
-        x, y = self.plan.to_drawing(q.x, q.y)
-        return Bound(side, str(self.kind[i]), plain_text(self.layer[i]), self.handle[i], float(min(d)), x, y,
-                     self.id_name)
-
-    def collides(self, poly: Any) -> bool:
-        if self.floor_union is None:
-            return False
-        return bool(len(self.floor_union.query(poly, predicate="intersects")))
-
-    def overlap_area(self, poly: Any) -> float:
-        if self.floor_union is None:
-            return 0.0
-        idx = self.floor_union.query(poly, predicate="intersects")
-        area = 0.0
-        for i in idx:
-            g = self.floor_geoms[int(i)]
-            area += poly.intersection(g).area if g.geom_type.endswith("Polygon") else poly.intersection(g).length * 0.01
-        return area
 
 
 def _placed(poly: Any, x: float, y: float, heading_deg: float) -> Any:
@@ -393,23 +286,6 @@ def _height_contents(sheet: Sheet, result: Any, obst: _Obstacles) -> None:
                                       float(obst.geoms[i].distance(shapely.Point(lx, ly))), x, y, obst.id_name))
 
 
-def _doorway_bound(result: Any, f: Any) -> Bound | None:
-    plan = result.plan
-    lx, ly = plan.to_local(f.x, f.y)
-    best = None
-    for door in plan.doors:
-        d = math.hypot(door.x - lx, door.y - ly)
-        if d <= 1.5 and (best is None or d < best[0]):
-            best = (d, door)
-    if best is None:
-        return None
-    door = best[1]
-    x, y = plan.to_drawing(door.x, door.y)
-    name = f"doorway {door.label}" if door.label else "doorway"
-    return Bound("door", f"{plain_text(name)} ({door.width_m:.2f} m drawn, found as {door.source or 'door'})",
-                 plain_text(door.layer), door.handle, best[0], x, y)
-
-
 def _numbers(f: Any) -> list[tuple[str, str]]:
     out = []
     if f.clear_width_m is not None:
@@ -495,236 +371,6 @@ def build_sheets(result: Any, *, viewport_mm: tuple[float, float] = VIEWPORT_MM,
         sheet.focus = (x0, y0, x1, y1)
         sheets.append(sheet)
     return sheets
-
-
-# -- drawing ------------------------------------------------------------------------------------------
-def view_box(sheet: Sheet, viewport_mm: tuple[float, float] = VIEWPORT_MM) -> tuple[float, float, float, float]:
-    """The drawing-frame box (m) the viewport shows at the sheet's scale."""
-    w = viewport_mm[0] * sheet.scale / 1000.0
-    h = viewport_mm[1] * sheet.scale / 1000.0
-    cx, cy = sheet.centre
-    return cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2
-
-
-def _nice_bar(span_m: float) -> float:
-    target = span_m / 4.0
-    for v in (10.0, 5.0, 2.0, 1.0, 0.5, 0.25):
-        if v <= target:
-            return v
-    return 0.25
-
-
-def _scale_bar(ax: Any, box: tuple[float, float, float, float], scale: int) -> None:
-    """A bar of alternating blocks in drawing metres at the lower left of the close-up."""
-    x0, y0, x1, y1 = box
-    length = _nice_bar(x1 - x0)
-    n = 4 if length >= 1 else 2
-    step = length / n
-    pad = 0.04 * (y1 - y0)
-    bx, by = x0 + pad, y0 + pad
-    h = 1.6 * scale / 1000.0          # 1.6 mm on paper
-    ax.add_patch(Rectangle((bx - 0.3 * pad, by - 0.3 * pad), length + 0.6 * pad + 0.3 * (x1 - x0) * 0.0,
-                           h + 3.2 * scale / 1000.0 + 0.6 * pad, facecolor="#ffffff", edgecolor="none",
-                           alpha=0.9, zorder=20))
-    for i in range(n):
-        ax.add_patch(Rectangle((bx + i * step, by), step, h, facecolor=_DIM if i % 2 == 0 else "#ffffff",
-                               edgecolor=_DIM, linewidth=0.5, zorder=21))
-    label = f"{length:g} m" if length >= 1 else f"{length * 1000:g} mm"
-    ax.text(bx, by + h + 0.6 * scale / 1000.0, "0", fontsize=6, ha="center", va="bottom", color=_DIM, zorder=22)
-    ax.text(bx + length, by + h + 0.6 * scale / 1000.0, label, fontsize=6, ha="center", va="bottom",
-            color=_DIM, zorder=22)
-    ax.text(bx + length + 2.5 * scale / 1000.0, by, f"scale 1:{scale}", fontsize=6.5, ha="left", va="bottom",
-            color=_DIM, zorder=22, fontweight="bold")
-
-
-def _draw_dimension(ax: Any, dim: Dimension, scale: int) -> None:
-    a, b = np.asarray(dim.a, float), np.asarray(dim.b, float)
-    u = _unit(b - a)
-    n = np.array([-u[1], u[0]])
-    total = dim.offset_mm * scale / 1000.0 + dim.offset_m
-    off = n * total
-    pa, pb = a + off, b + off
-    if abs(total) > 1e-9:              # extension lines from the measured points
-        ext = n * (0.8 * scale / 1000.0) * np.sign(total)
-        ax.plot([a[0], pa[0] + ext[0]], [a[1], pa[1] + ext[1]], color=_DIM, linewidth=0.4, zorder=15)
-        ax.plot([b[0], pb[0] + ext[0]], [b[1], pb[1] + ext[1]], color=_DIM, linewidth=0.4, zorder=15)
-    colour = "#b3261e" if dim.emphasis else _DIM
-    ax.annotate("", xy=tuple(pb), xytext=tuple(pa), zorder=16,
-                arrowprops={"arrowstyle": "<|-|>,head_length=0.5,head_width=0.18", "color": colour,
-                            "lw": 0.8, "shrinkA": 0, "shrinkB": 0})
-    mid = 0.5 * (pa + pb)
-    angle = math.degrees(math.atan2(u[1], u[0]))
-    if angle > 90:
-        angle -= 180
-    elif angle < -90:
-        angle += 180
-    tn = n if total >= 0 else -n
-    pos = mid + tn * (1.8 * scale / 1000.0)
-    ax.text(pos[0], pos[1], dim.text, fontsize=7, rotation=angle, rotation_mode="anchor", ha="center",
-            va="center", color=colour, zorder=17, fontweight="bold" if dim.emphasis else "normal",
-            bbox={"boxstyle": "square,pad=0.12", "facecolor": "#ffffff", "edgecolor": "none", "alpha": 0.85},
-            parse_math=False)
-
-
-def draw_closeup(ax: Any, result: Any, sheet: Sheet,  # noqa: C901  (one drawing, layer by layer, in order)
-                 viewport_mm: tuple[float, float] = VIEWPORT_MM, obstacles: Any = None) -> None:
-    """Draw the close-up of ``sheet`` into ``ax``; the axes must be ``viewport_mm`` on paper, so that
-    the drawing is at the sheet's scale."""
-    plan = result.plan
-    box = view_box(sheet, viewport_mm)
-    x0, y0, x1, y1 = box
-    ax.set_xlim(x0, x1)
-    ax.set_ylim(y0, y1)
-    ax.set_aspect("auto")
-    ax.set_xticks([])
-    ax.set_yticks([])
-    for side in ax.spines.values():
-        side.set_color("#6b7680")
-        side.set_linewidth(0.6)
-    ox, oy = plan.origin
-    shift = np.array([ox, oy])
-    obst = obstacles or _Obstacles(plan)
-    pad = 0.05 * max(x1 - x0, y1 - y0)
-    local_box = (x0 - ox - pad, y0 - oy - pad, x1 - ox + pad, y1 - oy + pad)
-    idx = obst.in_box(local_box)
-    clip = shapely.box(*local_box)
-    solids = [shapely.intersection(obst.geoms[i], clip) for i in idx if obst.kind[i] == "solid" and obst.floor[i]]
-    walls = [shapely.intersection(obst.geoms[i], clip) for i in idx if obst.kind[i] == "linework" and obst.floor[i]]
-    over = [shapely.intersection(obst.geoms[i], clip) for i in idx if not obst.floor[i]]
-    path = _polygon_path(solids, shift)
-    if path is not None:
-        ax.add_patch(PathPatch(path, facecolor=_SOLID_FACE, edgecolor=_WALL, linewidth=0.6, zorder=2))
-    segs = _line_segments(walls, shift)
-    if segs:
-        ax.add_collection(LineCollection(segs, colors=_WALL, linewidths=1.1, zorder=3, capstyle="butt"))
-    osegs = _line_segments(over, shift)
-    if osegs:
-        ax.add_collection(LineCollection(osegs, colors=_OVERHEAD, linewidths=0.8, linestyles=(0, (6, 2, 1, 2)),
-                                         zorder=3))
-    for door in plan.doors:
-        dx, dy = door.x + ox, door.y + oy
-        if x0 - 2 <= dx <= x1 + 2 and y0 - 2 <= dy <= y1 + 2:
-            ax.add_patch(Circle((dx, dy), max(door.width_m, 1e-3) / 2, facecolor="none", edgecolor=_DOOR,
-                                linewidth=0.6, linestyle=(0, (2, 2)), zorder=4))
-    for lab in plan.labels:
-        lx, ly = lab.x + ox, lab.y + oy
-        if x0 <= lx <= x1 and y0 <= ly <= y1:
-            ax.text(lx, ly, plain_text(lab.text), fontsize=6, color="#6a6a6a", style="italic", ha="center",
-                    va="center", zorder=5, parse_math=False, clip_on=True)
-    f = sheet.finding
-    style = kind_style(f.kind)
-    if isinstance(f.geometry, shapely.Geometry) and not f.geometry.is_empty:
-        g = f.geometry
-        polys = [p for p in parts(g) if isinstance(p, shapely.Polygon)]
-        p = _polygon_path(polys, shift)
-        if p is not None:
-            ax.add_patch(PathPatch(p, facecolor=style.colour, alpha=0.18, edgecolor=style.colour, linewidth=0.6,
-                                   zorder=5))
-    for x, y, dia, label, colour in sheet.circles:
-        ax.add_patch(Circle((x, y), dia / 2, facecolor="none", edgecolor=colour, linewidth=1.0,
-                            linestyle=(0, (5, 2)) if colour == _CIRCLE_NEED else "-", zorder=9))
-        ang = math.radians(35 if colour == _CIRCLE_NEED else -35)
-        ax.text(x + dia / 2 * math.cos(ang), y + dia / 2 * math.sin(ang), " " + label, fontsize=6.5, color=colour,
-                ha="left", va="center", zorder=18, parse_math=False,
-                bbox={"boxstyle": "square,pad=0.1", "facecolor": "#ffffff", "edgecolor": "none", "alpha": 0.8})
-    if sheet.pose is not None:
-        _draw_pose(ax, result.vehicle, sheet.pose)
-    for dim in sheet.dims:
-        _draw_dimension(ax, dim, sheet.scale)
-    for s in result.stations:
-        if x0 <= s.x <= x1 and y0 <= s.y <= y1:
-            ax.plot([s.x], [s.y], marker="h", markersize=8, markerfacecolor="#ffffff", markeredgecolor="#111111",
-                    markeredgewidth=1.3, linestyle="none", zorder=12)
-            ax.annotate(plain_text(s.name), (s.x, s.y), xytext=(6, 6), textcoords="offset points", fontsize=7,
-                        fontweight="bold", zorder=13, parse_math=False)
-    _draw_markers(ax, result, f, box, sheet.scale)
-    _scale_bar(ax, box, sheet.scale)
-    if sheet.side_view is not None:
-        _side_view(ax, result.vehicle, sheet.side_view)
-
-
-def _draw_markers(ax: Any, result: Any, f: Any, box: tuple[float, float, float, float], scale: int) -> None:
-    """Numbered markers of the findings in view; this sheet's finding sits 9 mm up and right of its
-    place, with a leader, so that it does not hide the dimensions."""
-    x0, y0, x1, y1 = box
-    lead = 9.0 * scale / 1000.0
-    for number, other in numbered_findings(result.findings):
-        if not (x0 <= other.x <= x1 and y0 <= other.y <= y1):
-            continue
-        st = kind_style(other.kind)
-        big = other is f
-        mx, my = (other.x + lead, other.y + lead) if big else (other.x, other.y)
-        if big:
-            ax.plot([other.x, mx], [other.y, my], color=st.colour, linewidth=0.7, zorder=19)
-            ax.plot([other.x], [other.y], marker="o", markersize=2.5, color=st.colour, zorder=19)
-        ax.plot([mx], [my], marker=st.marker, markersize=13 if big else 9, linestyle="none",
-                markerfacecolor=st.colour if big else "#ffffff", markeredgecolor=st.colour,
-                markeredgewidth=1.2, zorder=19)
-        ax.annotate(str(number), (mx, my), xytext=(0, -1.2 if st.marker == "^" else 0),
-                    textcoords="offset points", ha="center", va="center", fontsize=6.5 if big else 5.5,
-                    fontweight="bold", color="#ffffff" if big else st.colour, zorder=20)
-
-
-def _draw_pose(ax: Any, vehicle: Any, pose: Pose) -> None:
-    if pose.envelope_m > 0:
-        env = _placed(vehicle.outline.buffer(pose.envelope_m, join_style="mitre", mitre_limit=10.0),
-                      pose.x, pose.y, pose.heading_deg)
-        p = _polygon_path([env], np.zeros(2))
-        if p is not None:
-            ax.add_patch(PathPatch(p, facecolor="none", edgecolor=kind_style("tight").colour, linewidth=0.9,
-                                   linestyle=(0, (4, 2)), zorder=10))
-    fp = _placed(vehicle.footprint, pose.x, pose.y, pose.heading_deg)
-    body = _placed(vehicle.outline, pose.x, pose.y, pose.heading_deg)
-    p = _polygon_path([fp], np.zeros(2))
-    if p is not None:
-        ax.add_patch(PathPatch(p, facecolor=_POSE_FACE, edgecolor=_POSE_EDGE, linewidth=0.6,
-                               linestyle=(0, (2, 1.5)), alpha=0.9, zorder=10))
-    p = _polygon_path([body], np.zeros(2))
-    if p is not None:
-        ax.add_patch(PathPatch(p, facecolor="#a9c3dc", edgecolor=_POSE_EDGE, linewidth=1.0, alpha=0.85, zorder=11))
-    h = math.radians(pose.heading_deg)
-    length = 0.45 * max(float(getattr(vehicle, "length_m", 1.0)), 0.2)
-    ax.annotate("", xy=(pose.x + length * math.cos(h), pose.y + length * math.sin(h)), xytext=(pose.x, pose.y),
-                zorder=12, arrowprops={"arrowstyle": "-|>", "color": _POSE_EDGE, "lw": 1.0})
-    ax.plot([pose.x], [pose.y], marker="+", markersize=7, color=_POSE_EDGE, markeredgewidth=1.0, zorder=12)
-
-
-def _side_view(ax: Any, vehicle: Any, heights: tuple[float, float]) -> None:
-    """A small side view (not to the plan's scale) of the clear height and the vehicle height."""
-    clear, need = heights
-    inset = ax.inset_axes([0.70, 0.62, 0.27, 0.34])
-    top = max(clear, need if math.isfinite(need) else clear) * 1.25
-    length = float(getattr(vehicle, "length_m", 1.0))
-    inset.set_xlim(-0.2 * length, 1.8 * length)
-    inset.set_ylim(0, top)
-    inset.add_patch(Rectangle((0.2 * length, 0), length, need if math.isfinite(need) else 0.0,
-                              facecolor="#a9c3dc", edgecolor=_POSE_EDGE, linewidth=0.8))
-    inset.add_patch(Rectangle((-0.2 * length, clear), 2.0 * length, top - clear, facecolor=_SOLID_FACE,
-                              edgecolor=_WALL, linewidth=0.8, hatch="///"))
-    inset.axhline(0, color=_WALL, linewidth=1.0)
-    inset.text(1.45 * length, clear / 2, f"clear\n{clear:.2f} m", fontsize=6, ha="center", va="center", color=_DIM)
-    if math.isfinite(need):
-        inset.text(0.7 * length, need / 2, f"vehicle\n{need:.2f} m", fontsize=6, ha="center", va="center",
-                   color=_POSE_EDGE)
-    inset.set_xticks([])
-    inset.set_yticks([0, clear])
-    inset.tick_params(labelsize=5)
-    inset.set_title("side view (not to scale)", fontsize=6)
-
-
-def closeup_figure(result: Any, sheet: Sheet, viewport_mm: tuple[float, float] = VIEWPORT_MM,
-                   obstacles: Any = None) -> Figure:
-    """The close-up of ``sheet`` alone, as a figure exactly ``viewport_mm`` in size (to scale when
-    printed at 100 %)."""
-    fig = Figure(figsize=(viewport_mm[0] / 25.4, viewport_mm[1] / 25.4))
-    ax = fig.add_axes((0.0, 0.0, 1.0, 1.0))
-    draw_closeup(ax, result, sheet, viewport_mm, obstacles)
-    return fig
-
-
-def sheet_obstacles(result: Any) -> _Obstacles:
-    """The obstacle index the close-ups share (build once per report)."""
-    return _Obstacles(result.plan)
 
 
 def needed_width(vehicle: Any) -> float:

@@ -13,9 +13,10 @@ from typing import Any
 
 from matplotlib import rc_context
 
+from floorfit.report.closeup import closeup_figure
 from floorfit.report.figures import FigureImage, choose_format
 from floorfit.report.kinds import kind_style
-from floorfit.report.sheets import Sheet, closeup_figure
+from floorfit.report.sheets import Sheet
 
 __all__ = ["closeup_images", "sheets_section", "SHEETS_CSS"]
 

@@ -209,8 +209,9 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
     contents: dict[str, bytes] = {}
     sheets = None
     if "html" in chosen or "pdf" in chosen:
+        from floorfit.report.bounding_entities import sheet_obstacles
         from floorfit.report.pdf import page_layout
-        from floorfit.report.sheets import build_sheets, sheet_obstacles
+        from floorfit.report.sheets import build_sheets
 
         layout = page_layout(paper)
         obstacles = sheet_obstacles(result)

@@ -1,0 +1,138 @@
+"""The drawing entities that bound a finding's place, with their layers and handles.
+
+This module owns the lookup the finding sheets of :mod:`floorfit.report.sheets` use to name what
+bounds a place: the obstacle index of a plan (:func:`sheet_obstacles`: walls and solids with their
+layers, DXF handles or building-model element ids and heights, in the plan's local frame, metres),
+its nearest-entity and overlap queries, the doorway near a finding, and :class:`Bound`, the entity
+as a sheet lists it (side, kind, layer, handle, distance in metres, nearest point in the drawing
+frame).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import shapely
+import shapely.ops
+
+from floorfit.report.kinds import plain_text
+
+__all__ = ["Bound", "sheet_obstacles"]
+
+
+@dataclass(frozen=True)
+class Bound:
+    """A drawing entity that bounds the place: which side, what, on which layer, its handle."""
+
+    side: str
+    entity: str          # "linework", "solid", "doorway", "overhead"
+    layer: str
+    handle: str | None
+    distance_m: float
+    x: float
+    y: float
+    id_name: str = "handle"
+
+    def text(self) -> str:
+        if self.handle:
+            handle = f"handle #{self.handle}" if self.id_name == "handle" else f"{self.id_name} {self.handle}"
+        else:
+            handle = "handle not kept by the importer"
+        layer = f"layer {self.layer}" if self.layer else "no layer"
+        return (f"{self.side}: {self.entity} on {layer}, {handle}, nearest point ({self.x:.2f}, {self.y:.2f}) m")
+
+
+# -- obstacles with their layers and handles ------------------------------------------------------
+class _Obstacles:
+    def __init__(self, plan: Any):
+        self.plan = plan
+        walls, solids = list(plan.walls), list(plan.solids)
+        self.geoms = np.asarray(walls + solids, dtype=object)
+        self.kind = np.array(["linework"] * len(walls) + ["solid"] * len(solids), dtype=object)
+        self.layer = np.concatenate([np.asarray(plan.wall_layers, dtype=object),
+                                     np.asarray(plan.solid_layers, dtype=object)]) if len(self.geoms) \
+            else np.zeros(0, dtype=object)
+        # the entity each obstacle came from: DXF handles, or element ids of a building model
+        handles: list[str | None] = [None] * len(self.geoms)
+        self.id_name = "handle"
+        sources = (("wall_ids", "solid_ids", "element id"), ("wall_handles", "solid_handles", "handle"))
+        for w_key, s_key, name in sources:
+            wh, sh = getattr(plan, w_key, None), getattr(plan, s_key, None)
+            if wh is not None and len(wh) == len(walls):
+                handles[:len(walls)] = [None if h is None or h == "" else str(h) for h in wh]
+                self.id_name = name
+            if sh is not None and len(sh) == len(solids):
+                handles[len(walls):] = [None if h is None or h == "" else str(h) for h in sh]
+                self.id_name = name
+        self.handle = handles
+        heights = np.concatenate([np.asarray(plan.wall_heights).reshape(-1, 2),
+                                  np.asarray(plan.solid_heights).reshape(-1, 2)])
+        self.bottom = heights[:, 0] if len(heights) else np.zeros(0)
+        self.floor = self.bottom <= 0
+        self.tree = shapely.STRtree(self.geoms) if len(self.geoms) else None
+        floor_geoms = self.geoms[self.floor] if len(self.geoms) else self.geoms
+        self.floor_union = shapely.STRtree(floor_geoms) if len(floor_geoms) else None
+        self.floor_geoms = floor_geoms
+
+    def in_box(self, box: tuple[float, float, float, float]) -> np.ndarray:
+        if self.tree is None:
+            return np.zeros(0, dtype=int)
+        return np.sort(self.tree.query(shapely.box(*box)))
+
+    def nearest_bound(self, side: str, lx: float, ly: float, *, floor_only: bool = True) -> Bound | None:
+        if self.tree is None:
+            return None
+        p = shapely.Point(lx, ly)
+        idx = self.tree.query(p.buffer(0.05))
+        cand = [int(i) for i in idx if not floor_only or self.floor[int(i)]]
+        if not cand:
+            near = self.tree.query_nearest(p, max_distance=5.0)
+            cand = [int(i) for i in near if not floor_only or self.floor[int(i)]]
+        if not cand:
+            return None
+        d = [self.geoms[i].distance(p) for i in cand]
+        i = cand[int(np.argmin(d))]
+        q = shapely.ops.nearest_points(self.geoms[i], p)[0]
+        x, y = self.plan.to_drawing(q.x, q.y)
+        return Bound(side, str(self.kind[i]), plain_text(self.layer[i]), self.handle[i], float(min(d)), x, y,
+                     self.id_name)
+
+    def collides(self, poly: Any) -> bool:
+        if self.floor_union is None:
+            return False
+        return bool(len(self.floor_union.query(poly, predicate="intersects")))
+
+    def overlap_area(self, poly: Any) -> float:
+        if self.floor_union is None:
+            return 0.0
+        idx = self.floor_union.query(poly, predicate="intersects")
+        area = 0.0
+        for i in idx:
+            g = self.floor_geoms[int(i)]
+            area += poly.intersection(g).area if g.geom_type.endswith("Polygon") else poly.intersection(g).length * 0.01
+        return area
+
+
+def sheet_obstacles(result: Any) -> _Obstacles:
+    """The obstacle index the close-ups share (build once per report)."""
+    return _Obstacles(result.plan)
+
+
+def _doorway_bound(result: Any, f: Any) -> Bound | None:
+    plan = result.plan
+    lx, ly = plan.to_local(f.x, f.y)
+    best = None
+    for door in plan.doors:
+        d = math.hypot(door.x - lx, door.y - ly)
+        if d <= 1.5 and (best is None or d < best[0]):
+            best = (d, door)
+    if best is None:
+        return None
+    door = best[1]
+    x, y = plan.to_drawing(door.x, door.y)
+    name = f"doorway {door.label}" if door.label else "doorway"
+    return Bound("door", f"{plain_text(name)} ({door.width_m:.2f} m drawn, found as {door.source or 'door'})",
+                 plain_text(door.layer), door.handle, best[0], x, y)
