@@ -17,7 +17,8 @@ from shapely.geometry import LineString
 import floorfit as ff
 from floorfit.analysis.check import run_check
 from floorfit.analysis.findings import Station
-from floorfit.analysis.traffic import SAMPLE_STEP_M, pair_outline
+from floorfit.analysis.traffic import SAMPLE_STEP_M
+from floorfit.analysis.traffic_pair import pair_outline
 from floorfit.errors import SiteError
 from floorfit.plan.model import Label, Plan
 from floorfit.plan.site import Site, Traffic, read_site

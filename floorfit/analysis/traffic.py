@@ -1,16 +1,17 @@
 """Fleet traffic: where two vehicles can pass each other, and the single-lane stretches between.
 
 Two vehicles side by side, facing opposite ways with a gap between them, are one rigid body:
-the *pair outline* (:func:`pair_outline`). Its configuration-space slices (the same
-machinery as the check's own, :func:`floorfit.cspace.slices.build_slices`, on the check's
-heading cells) say where the two can be abreast: where they can pass each other, or where
-one can wait beside the other while it passes. In a straight aisle of width W two vehicles
+the *pair outline* (:func:`floorfit.analysis.traffic_pair.pair_outline`). Its configuration-space
+slices (the same machinery as the check's own, :func:`floorfit.cspace.slices.build_slices`, on
+the check's heading cells) say where the two can be abreast: where they can pass each other, or
+where one can wait beside the other while it passes. In a straight aisle of width W two vehicles
 of widths w1 and w2 kept g apart are abreast iff W ≥ w1 + w2 + g (a geometric closed form).
 
 Along the route the checked vehicle takes between every pair of connected stations
-(:func:`station_routes`), samples every :data:`SAMPLE_STEP_M` look across the route: the
-*cross-section* is the line through the sample, perpendicular to the direction of travel,
-between the first obstacles on each side (its length is the width the route has there).
+(:func:`floorfit.analysis.traffic_routes.station_routes`), samples every :data:`SAMPLE_STEP_M`
+look across the route: the *cross-section* is the line through the sample, perpendicular to
+the direction of travel, between the first obstacles on each side (its length is the width the
+route has there).
 A sample is *two-way* when the pair outline fits with its centre on that cross-section at
 some slice heading within :data:`HEADING_WINDOW_DEG` of the travel direction (either way
 round). Runs of samples that are not two-way are *single-lane*; their floor strips (the
@@ -20,18 +21,8 @@ stretches, and the two-way strips are the passing places. A single-lane stretch 
 floor where the vehicle fits still joins its ends without it), so that traffic can run
 one way round.
 
-Conventions of the pair outline (vehicle frame of the first vehicle: +x forward, +y left):
-the first vehicle on the right, the other on its left (each keeps to its right when they
-meet), bounding boxes centred on the same cross line, the gap measured across between the
-footprints (outline plus margin). The floor between the two over the length they share
-counts as part of the pair (an obstacle there is not passed between them), and the other
-vehicle is taken both facing the other way (passing) and the same way (waiting beside,
-overtaking): the pair outline is the union of both arrangements, which is the same shape
-for outlines symmetric front to back about their box centre (rectangles). With several
-other vehicles, their outlines are united in the same place (one slice build for the
-fleet; exact when one of them covers the others). The reference point is the centre of
-the pair's bounding box, so two equal vehicles give a pair symmetric under a half turn,
-whose slices at h and h + 180° are built once.
+The pair outline, its conventions and its slices are in :mod:`floorfit.analysis.traffic_pair`;
+the routes, their samples and cross-sections in :mod:`floorfit.analysis.traffic_routes`.
 
 Lengths are along the route, within one sample step plus the pair slices' tolerance; the
 answers err towards "single-lane" (the sound bound). Local frame for geometry, drawing frame
@@ -41,27 +32,24 @@ in findings and in the ``traffic`` record, metres and degrees.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
-import networkx as nx
 import numpy as np
 import shapely
-import shapely.affinity
-from shapely.geometry import Point, Polygon, box
+from shapely.geometry import Point, Polygon
 
 from floorfit.analysis.context import CheckContext, SliceStage
 from floorfit.analysis.findings import Finding
 from floorfit.analysis.naming import place_name
-from floorfit.cspace.headings import HeadingCells, arc_deg, dominant_directions_deg
-from floorfit.cspace.roadmap import station_nodes
-from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for, obstacles_met
-from floorfit.motion.route_query import route_in_slices
+from floorfit.analysis.traffic_pair import PairSlices, _traffic_vehicles, _two_way, pair_vehicle
+from floorfit.analysis.traffic_routes import TrafficRoute, _cross_sections, _sample, _straighten, station_routes
+from floorfit.cspace.headings import dominant_directions_deg
+from floorfit.cspace.slices import choose_headings, obstacles_for, obstacles_met
 from floorfit.plan.site import Traffic
-from floorfit.vehicles.rigid import Vehicle, vehicle_from_outline
+from floorfit.vehicles.rigid import Vehicle
 
-__all__ = ["KIND", "SAMPLE_STEP_M", "HEADING_WINDOW_DEG", "pair_outline", "pair_vehicle", "station_routes",
-           "traffic_stage", "TrafficRoute", "PairSlices", "PAIR_STEP_DEG"]
+__all__ = ["KIND", "SAMPLE_STEP_M", "HEADING_WINDOW_DEG", "traffic_stage", "PAIR_STEP_DEG"]
 
 #: The finding kind of a single-lane stretch.
 KIND = "single-lane"
@@ -75,302 +63,8 @@ HEADING_WINDOW_DEG = 10.0
 PAIR_STEP_DEG = 5.0
 #: Cross-sections reach at most this far each side (metres), or twice the pair width when that is more.
 CROSS_REACH_M = 4.0
-#: The direction of travel at a sample is the chord over this distance along the route (metres).
-DIRECTION_CHORD_M = 1.0
 #: Two ends of a stretch closer than this (metres) are one end.
 END_MERGE_M = 1.0
-
-
-# -- the pair outline ------------------------------------------------------------------------
-def _placed(fp: Polygon, turned: bool, cy: float) -> Polygon:
-    """``fp`` (turned by a half turn if ``turned``) moved so its bounding box centre is (0, cy)."""
-    if turned:
-        fp = shapely.affinity.rotate(fp, 180.0, origin=(0.0, 0.0))
-    x0, y0, x1, y1 = fp.bounds
-    return shapely.affinity.translate(fp, -(x0 + x1) / 2.0, cy - (y0 + y1) / 2.0)
-
-
-def pair_outline(first: Vehicle, others: list[Vehicle], gap_m: float) -> Polygon:
-    """The rigid outline of ``first`` with each of ``others`` beside it on its left, ``gap_m`` apart.
-
-    Footprints (outline plus margin) are used, so the outline needs no margin of its own. See
-    the module docstring for the conventions. The reference point is the centre of the
-    outline's bounding box; +x is the first vehicle's forward direction.
-    """
-    fa = first.footprint
-    ha = fa.bounds[3] - fa.bounds[1]
-    hb = max(o.footprint.bounds[3] - o.footprint.bounds[1] for o in others)
-    total = ha + gap_m + hb
-    ya = -total / 2.0 + ha / 2.0
-    a = _placed(fa, False, ya)
-    pieces: list[Polygon] = [a]
-    for other in others:
-        fb = other.footprint
-        hbi = fb.bounds[3] - fb.bounds[1]
-        yb = -total / 2.0 + ha + gap_m + hbi / 2.0
-        for turned in (True, False):
-            b = _placed(fb, turned, yb)
-            pieces.append(b)
-            xlo, xhi = max(a.bounds[0], b.bounds[0]), min(a.bounds[2], b.bounds[2])
-            if xhi > xlo:
-                pieces.append(box(xlo, ya, xhi, yb))      # the floor kept clear between the two
-    shape = shapely.set_precision(shapely.union_all(pieces), 1e-9)
-    if not isinstance(shape, Polygon):
-        shape = shape.convex_hull
-    return Polygon(shape.exterior).simplify(0.0)
-
-
-def pair_vehicle(first: Vehicle, others: list[Vehicle], gap_m: float) -> Vehicle:
-    """The pair as one rigid vehicle (mode omni, no margin), named after its members."""
-    outline = pair_outline(first, others, gap_m)
-    heights = [v.height_m for v in [first, *others]]
-    height = None if any(h is None for h in heights) else max(heights)
-    names = sorted({first.name, *(o.name for o in others)})
-    return vehicle_from_outline(list(outline.exterior.coords), name=" + ".join(names), margin=0.0, mode="omni",
-                                height_m=height, where="traffic pair outline")
-
-
-def _traffic_vehicles(ctx: CheckContext, settings: Traffic) -> list[Vehicle]:
-    """The vehicles the checked one meets: loaded from files, given as objects, or its own kind."""
-    from floorfit.vehicles.loading import split_vehicle_file
-
-    out: list[Vehicle] = []
-    for item in settings.vehicles:
-        if isinstance(item, Vehicle):
-            out.append(item)
-        else:
-            vehicle, train = split_vehicle_file(item)
-            out.append(vehicle)
-            if train is not None:
-                ctx.notes.append(f"traffic: {vehicle.name} is a train; passing is checked with its tractor only")
-    return out or [ctx.vehicle]
-
-
-# -- routes and their cross-sections ---------------------------------------------------------
-@dataclass
-class TrafficRoute:
-    """One station pair's route, sampled: positions ``p`` (N, 2), unit directions ``d``, normals
-    ``n``, cross-section extent ``t_neg`` ≤ 0 ≤ ``t_pos`` along ``n``, ``two_way`` flags,
-    ``step`` (metres of route per sample). Local frame, metres."""
-
-    a: str
-    b: str
-    p: np.ndarray
-    d: np.ndarray
-    step: float
-    n: np.ndarray = field(init=False)
-    t_neg: np.ndarray | None = None
-    t_pos: np.ndarray | None = None
-    two_way: np.ndarray | None = None
-
-    def __post_init__(self) -> None:
-        self.n = np.c_[-self.d[:, 1], self.d[:, 0]]
-
-    @property
-    def width(self) -> np.ndarray:
-        return self.t_pos - self.t_neg
-
-
-def _sample(xy: np.ndarray, step: float) -> tuple[np.ndarray, np.ndarray, float] | None:
-    """Samples at the centres of equal pieces of the polyline ``xy`` (each at most ``step`` long),
-    with the direction of travel as the chord over :data:`DIRECTION_CHORD_M` around each."""
-    keep = np.r_[True, np.any(np.abs(np.diff(xy, axis=0)) > 1e-9, axis=1)]
-    xy = xy[keep]
-    if len(xy) < 2:
-        return None
-    cum = np.r_[0.0, np.cumsum(np.hypot(*np.diff(xy, axis=0).T))]
-    total = float(cum[-1])
-    if total <= 1e-6:
-        return None
-    count = max(1, math.ceil(total / step))
-    s = (np.arange(count) + 0.5) * (total / count)
-    at = np.c_[np.interp(s, cum, xy[:, 0]), np.interp(s, cum, xy[:, 1])]
-    half = DIRECTION_CHORD_M / 2.0
-    lo, hi = np.clip(s - half, 0.0, total), np.clip(s + half, 0.0, total)
-    chord = np.c_[np.interp(hi, cum, xy[:, 0]) - np.interp(lo, cum, xy[:, 0]),
-                  np.interp(hi, cum, xy[:, 1]) - np.interp(lo, cum, xy[:, 1])]
-    length = np.hypot(chord[:, 0], chord[:, 1])
-    length[length <= 1e-12] = 1.0
-    return at, chord / length[:, None], total / count
-
-
-def station_routes(ctx: CheckContext, cs: SliceStage, reach: dict) -> list[tuple[str, str, np.ndarray]]:
-    """(from, to, local (N, 2) path) of the checked vehicle's roadmap route for every connected
-    station pair, in station order."""
-    comp: dict = {}
-    for cid, nodes in enumerate(nx.connected_components(cs.roadmap)):
-        for node in nodes:
-            comp[node] = cid
-    heads = cs.slices.cells.headings
-    by = {s.name: s for s in ctx.stations}
-    names = ctx.station_names
-    nodes = {s.name: station_nodes(cs.slices, ctx.st_local[s.name], s.heading_deg, s.heading_tolerance_deg)
-             for s in ctx.stations}
-    out = []
-    for i, a in enumerate(names):
-        for b in names[i + 1:]:
-            if not (reach[a][b] or reach[b][a]):
-                continue
-            sa, sb = by[a], by[b]
-            la, lb = ctx.st_local[a], ctx.st_local[b]
-            na, nb = nodes[a], nodes[b]
-            pair = next(((u, v) for u in na for v in nb if comp.get(u) == comp.get(v)), None)
-            if pair is None:
-                continue
-            tries = [(float(heads[pair[0][0]]), float(heads[pair[1][0]]))]
-            if sa.heading_deg is not None or sb.heading_deg is not None:
-                tries.insert(0, (sa.heading_deg if sa.heading_deg is not None else tries[0][0],
-                                 sb.heading_deg if sb.heading_deg is not None else tries[0][1]))
-            for ha, hb in tries:
-                status, path, _ = route_in_slices(cs.slices, cs.roadmap, (*la, ha), (*lb, hb))
-                if status == "reachable":
-                    out.append((a, b, np.asarray(path)[:, :2]))
-                    break
-    return out
-
-
-def _straighten(xy: np.ndarray, fits, spacing: float = 0.5) -> np.ndarray:
-    """The route pulled taut within ``fits`` (where the vehicle fits at some heading): from each
-    point, on to the farthest later point (found by doubling, then halving) that a straight line
-    inside ``fits`` reaches. Removes the detours a route takes to find room to turn."""
-    if fits is None or fits.is_empty or len(xy) < 3:
-        return xy
-    line = shapely.LineString(xy)
-    count = max(2, math.ceil(line.length / spacing) + 1)
-    pts = shapely.get_coordinates(shapely.line_interpolate_point(line, np.linspace(0.0, line.length, count)))
-    shapely.prepare(fits)
-
-    def clear(i: int, j: int) -> bool:
-        return bool(fits.covers(shapely.LineString([pts[i], pts[j]])))
-
-    out, i, last = [pts[0]], 0, len(pts) - 1
-    while i < last:
-        good, step = i + 1, 1
-        while good + step <= last and clear(i, good + step):
-            good += step
-            step *= 2
-        lo, hi = good, min(good + step, last + 1)
-        while hi - lo > 1:
-            mid = (lo + hi) // 2
-            if clear(i, mid):
-                lo = mid
-            else:
-                hi = mid
-        out.append(pts[lo])
-        i = lo
-    return np.asarray(out)
-
-
-def _cross_sections(route: TrafficRoute, tree: shapely.STRtree, geoms: np.ndarray, reach: float) -> None:
-    """Fill ``route.t_neg`` / ``t_pos``: where the cross-section meets the first obstacle each side."""
-    p, n = route.p, route.n
-    m = len(p)
-    t_pos, t_neg = np.full(m, reach), np.full(m, -reach)
-    if len(geoms):
-        segs = shapely.linestrings(np.stack([p - reach * n, p + reach * n], axis=1))
-        si, oi = tree.query(segs, predicate="intersects")
-        if len(si):
-            hit = shapely.intersection(segs[si], geoms[oi])
-            xy, k = shapely.get_coordinates(hit, return_index=True)
-            owner = si[k]
-            t = np.einsum("ij,ij->i", xy - p[owner], n[owner])
-            pos, neg = t > 1e-9, t < -1e-9
-            np.minimum.at(t_pos, owner[pos], t[pos])
-            np.maximum.at(t_neg, owner[neg], t[neg])
-            on = owner[~(pos | neg)]
-            t_pos[on] = t_neg[on] = 0.0
-    route.t_neg, route.t_pos = t_neg, t_pos
-
-
-class PairSlices:
-    """The pair's configuration-space slices on the check's heading cells, built on demand: only
-    the slices the routes' directions need (``components[k]`` for slice k of ``cells``)."""
-
-    def __init__(self, ctx: CheckContext, cells: HeadingCells, vehicle: Vehicle, obstacles):
-        self.ctx, self.cells, self.vehicle, self.obstacles = ctx, cells, vehicle, obstacles
-        self.components: dict[int, np.ndarray] = {}
-        self.tolerance_m = 0.0
-
-    def build(self, ks) -> None:
-        todo = np.array(sorted({int(k) for k in ks} - set(self.components)), dtype=int)
-        if not len(todo):
-            return
-        if len(todo) + len(self.components) > len(self.cells) // 2:     # most of them: all in one go
-            todo = np.array(sorted(set(range(len(self.cells))) - set(self.components)), dtype=int)
-        c = self.cells
-        sub = HeadingCells(c.headings[todo], c.below[todo], c.above[todo], c.step_deg)
-        built = build_slices(self.ctx.plan, self.vehicle, cells=sub, workers=self.ctx.workers,
-                             obstacles=self.obstacles)
-        self.components.update(zip(todo.tolist(), built.components))
-        self.tolerance_m = max(self.tolerance_m, float(built.tolerance_m))
-
-    def meets(self, k: int, segs: np.ndarray) -> np.ndarray:
-        """Indices into ``segs`` of the segments that meet slice k's free space (prepared polygons)."""
-        comps = self.components[k]
-        if not len(comps) or not len(segs):
-            return np.zeros(0, dtype=int)
-        _, hit = shapely.STRtree(segs).query(comps, predicate="intersects")
-        return np.unique(hit)
-
-
-def _nearest(heads: np.ndarray, theta: np.ndarray) -> np.ndarray:
-    return np.concatenate([np.argmin(np.abs(arc_deg(heads[None, :], t[:, None])), axis=1)
-                           for t in np.array_split(theta, max(1, len(theta) // 2000))]) \
-        if len(theta) else np.zeros(0, dtype=int)
-
-
-def _first_choice(cells: HeadingCells, axes: list[float], theta: np.ndarray, window_deg: float) -> np.ndarray:
-    """For each direction, the slice of the nearest wall axis within the window (aisles run along
-    the walls, so few slices serve most samples), else the nearest slice."""
-    k = _nearest(cells.headings, theta)
-    if axes:
-        ax = np.asarray(axes, dtype=float)
-        off = np.abs(arc_deg(ax[None, :], theta[:, None]))
-        best = np.argmin(off, axis=1)
-        near = off[np.arange(len(theta)), best] <= window_deg
-        k[near] = _nearest(cells.headings, ax)[best[near]]
-    return k
-
-
-def _two_way(pair: PairSlices, routes: list[TrafficRoute], axes: list[float], window_deg: float) -> None:
-    """Fill ``route.two_way`` for all routes: the pair fits with its centre on the cross-section at
-    a slice heading within ``window_deg`` of the travel direction, either way round. First each
-    sample's first-choice slice (both ways round), then, for the samples still undecided, every
-    slice in the window; slices are built only when first needed."""
-    if not routes:
-        return
-    p = np.vstack([r.p for r in routes])
-    n = np.vstack([r.n for r in routes])
-    d = np.vstack([r.d for r in routes])
-    t0 = np.concatenate([r.t_neg for r in routes])
-    t1 = np.concatenate([r.t_pos for r in routes])
-    segs = shapely.linestrings(np.stack([p + t0[:, None] * n, p + t1[:, None] * n], axis=1))
-    theta = np.degrees(np.arctan2(d[:, 1], d[:, 0]))
-    heads = pair.cells.headings
-    ok = np.zeros(len(p), dtype=bool)
-    first = _first_choice(pair.cells, axes, theta, window_deg)
-    flipped = _first_choice(pair.cells, axes, theta + 180.0, window_deg)
-    pair.build(np.r_[first, flipped])
-    for k in np.unique(np.r_[first, flipped]):
-        idx = np.flatnonzero(((first == k) | (flipped == k)) & ~ok)
-        ok[idx[pair.meets(int(k), segs[idx])]] = True
-    todo = np.flatnonzero(~ok)
-    if len(todo):
-        off = np.abs(arc_deg(heads[None, :], theta[todo, None]))
-        wanted = (np.minimum(off, 180.0 - off) <= window_deg).any(axis=0)
-        pair.build(np.flatnonzero(wanted))
-        for k in np.flatnonzero(wanted):
-            idx = np.flatnonzero(~ok)
-            if not len(idx):
-                break
-            off = np.abs(arc_deg(heads[k], theta[idx]))
-            idx = idx[np.minimum(off, 180.0 - off) <= window_deg]
-            if len(idx):
-                ok[idx[pair.meets(int(k), segs[idx])]] = True
-    start = 0
-    for r in routes:
-        r.two_way = ok[start:start + len(r.p)]
-        start += len(r.p)
 
 
 # -- strips, stretches, passing places ------------------------------------------------------
