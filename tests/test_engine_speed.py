@@ -310,3 +310,31 @@ def test_route_reuses_cached_slices_of_the_whole_drawing(tmp_path, capsys, monke
     # the whole drawing's slices are in the cache: no window, nothing built
     assert "around start and goal only" not in second and "slices: 0 built" in second
     assert first.splitlines()[:2] == second.splitlines()[:2]          # same answer, same path
+
+
+def test_ctrl_c_during_the_slices_stops_every_process_with_one_line(plans_real, tmp_path):
+    """Ctrl-C (SIGINT to the whole process group, as a terminal sends it) while the pool builds slices."""
+    import os
+    import signal
+    import subprocess
+    import sys
+
+    veh = tmp_path / "robot.toml"
+    veh.write_text('name = "r"\n[footprint]\nwidth = 0.6\nlength = 0.8\n[motion]\nmode = "differential"\n')
+    cmd = [sys.executable, "-m", "floorfit", "check", str(plans_real / "egghunters__dxf-viewer-examples__dxf_4.dxf"),
+           "--vehicle", str(veh), "--out", str(tmp_path / "out"), "--workers", "2", "--no-cache"]
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, start_new_session=True,
+                            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
+    lines = []
+    for line in proc.stderr:                      # wait until the slices are being built
+        lines.append(line.rstrip("\n"))
+        if line.startswith("floorfit: slices:"):
+            break
+    assert "on 2 processes" in lines[-1]
+    os.killpg(proc.pid, signal.SIGINT)
+    rest = proc.stderr.read().splitlines()
+    proc.wait(timeout=120)
+    assert proc.returncode == 130
+    assert rest[-1:] == ["floorfit check: interrupted"] and not any("Traceback" in ln for ln in rest)
+    left = subprocess.run(["pgrep", "-g", str(proc.pid)], capture_output=True, text=True).stdout.split()
+    assert left == []                              # no pool worker outlives the command

@@ -752,16 +752,17 @@ def run_slice_jobs(obstacles: ObstacleSet, jobs: list, domain: Polygon, labels: 
                                    initargs=(obstacles, domain, labels))
         try:
             out = []
-            for comps in pool.map(_worker_slice, jobs, chunksize=max(1, len(jobs) // (8 * n_workers))):
+            # small chunks: Ctrl-C waits only for the slices the workers hold
+            for comps in pool.map(_worker_slice, jobs, chunksize=max(1, min(2, len(jobs) // (8 * n_workers)))):
                 out.append(comps)
                 if progress is not None:
                     progress(len(out), total)
             pool.shutdown(wait=True)
             return out
         except BaseException:
+            # no new slices start; the workers (which ignore Ctrl-C) finish the chunk they hold
+            # and exit (terminating them instead makes the pool's manager thread report errors)
             pool.shutdown(wait=False, cancel_futures=True)
-            for proc in list(getattr(pool, "_processes", {}).values()):
-                proc.terminate()
             raise
     out = []
     for p, h, g, a in jobs:
