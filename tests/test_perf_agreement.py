@@ -122,7 +122,10 @@ def _reach(slices: SliceSet, pts: dict) -> dict:
 
 # --- tests ------------------------------------------------------------------------------
 def _convex(points) -> np.ndarray | None:
-    hull = shapely.MultiPoint(points).convex_hull
+    # points on a 1 nm grid: plan coordinates come from drawings in metres; a hull with vertices
+    # 1e-283 m apart (found by Hypothesis) is convex for GEOS but not for the edge directions
+    # computed from those differences, and no drawing holds such geometry
+    hull = shapely.set_precision(shapely.MultiPoint(points), 1e-9).convex_hull
     if hull.geom_type == "Polygon" and hull.area > 1e-6:
         return np.asarray(hull.exterior.coords)[:-1]
     if hull.geom_type == "LineString" and hull.length > 1e-6:

@@ -227,6 +227,9 @@ def convex_sums(group: ConvexGroup, B: np.ndarray) -> np.ndarray:
     vertex p of the sum is ``P[i] + B[j]`` with i, j the numbers of edges of each taken
     before p. Every vertex is one floating-point addition of two input vertices, as in
     the convex hull of pairwise sums. Repeated and collinear vertices may remain.
+    Precondition: each ring is convex for the direction angles of its edges, which holds for
+    coordinates on a nanometre grid (plans in metres); vertices a subnormal distance apart can
+    break the angle order.
     """
     return _merged_sums(group, B)[0]
 
