@@ -287,7 +287,7 @@ def _outline_from_file(fp: dict, src: str, prefix: str, state: str):
     """Outline points (metres) and height (or None) from an outline DXF or a VDA 5050 factsheet."""
     base = Path(src).parent
     if "outline_dxf" in fp:
-        from floorfit.plan.dxf import outline_from_dxf
+        from floorfit.plan.dxf.outline import outline_from_dxf
         name = get_string(fp, "outline_dxf", src, prefix, VehicleError)
         pts = outline_from_dxf(base / name, layer=get_string(fp, "outline_layer", src, prefix, VehicleError),
                                block=get_string(fp, "outline_block", src, prefix, VehicleError),
