@@ -125,6 +125,13 @@ class Plan:
     wall_ids: np.ndarray | None = None
     solid_ids: np.ndarray | None = None
     model: dict | None = None
+    # DXF drawings: the handle of the model-space entity each wall / solid came from and its entity
+    # type ("LINE", "LWPOLYLINE", "HATCH", "LINE in INSERT" for a block member named by its INSERT);
+    # "" where none is known
+    wall_handles: np.ndarray | None = None
+    solid_handles: np.ndarray | None = None
+    wall_types: np.ndarray | None = None
+    solid_types: np.ndarray | None = None
 
     def __post_init__(self) -> None:
         self.walls = _as_geometry_array(self.walls, "walls")
@@ -144,6 +151,14 @@ class Plan:
         if len(self.wall_heights) != len(self.walls) or len(self.solid_heights) != len(self.solids) \
                 or len(self.wall_layers) != len(self.walls) or len(self.solid_layers) != len(self.solids):
             raise ValueError("heights and layers must have one entry per obstacle")
+        for name, n in (("wall_handles", len(self.walls)), ("solid_handles", len(self.solids)),
+                        ("wall_types", len(self.walls)), ("solid_types", len(self.solids))):
+            value = getattr(self, name)
+            if value is not None:
+                value = np.asarray(value, dtype=object).reshape(-1)
+                if len(value) != n:
+                    raise ValueError(f"{name} must have one entry per obstacle")
+                setattr(self, name, value)
 
     # -- construction -------------------------------------------------------------
     @classmethod

@@ -28,7 +28,7 @@ class Bound:
     """A drawing entity that bounds the place: which side, what, on which layer, its handle."""
 
     side: str
-    entity: str          # "linework", "solid", "doorway", "overhead"
+    entity: str          # "linework", "solid" (with the DXF entity type where kept), "doorway", "overhead"
     layer: str
     handle: str | None
     distance_m: float
@@ -55,19 +55,9 @@ class _Obstacles:
         self.layer = np.concatenate([np.asarray(plan.wall_layers, dtype=object),
                                      np.asarray(plan.solid_layers, dtype=object)]) if len(self.geoms) \
             else np.zeros(0, dtype=object)
-        # the entity each obstacle came from: DXF handles, or element ids of a building model
-        handles: list[str | None] = [None] * len(self.geoms)
-        self.id_name = "handle"
-        sources = (("wall_ids", "solid_ids", "element id"), ("wall_handles", "solid_handles", "handle"))
-        for w_key, s_key, name in sources:
-            wh, sh = getattr(plan, w_key, None), getattr(plan, s_key, None)
-            if wh is not None and len(wh) == len(walls):
-                handles[:len(walls)] = [None if h is None or h == "" else str(h) for h in wh]
-                self.id_name = name
-            if sh is not None and len(sh) == len(solids):
-                handles[len(walls):] = [None if h is None or h == "" else str(h) for h in sh]
-                self.id_name = name
-        self.handle = handles
+        self.handle, self.id_name = _entity_ids(plan, len(walls), len(solids))
+        # DXF entity types where the importer kept them ("LINE", "HATCH", ...)
+        self.etype = _per_obstacle(plan, "wall_types", "solid_types", len(walls), len(solids))
         heights = np.concatenate([np.asarray(plan.wall_heights).reshape(-1, 2),
                                   np.asarray(plan.solid_heights).reshape(-1, 2)])
         self.bottom = heights[:, 0] if len(heights) else np.zeros(0)
@@ -97,8 +87,13 @@ class _Obstacles:
         i = cand[int(np.argmin(d))]
         q = shapely.ops.nearest_points(self.geoms[i], p)[0]
         x, y = self.plan.to_drawing(q.x, q.y)
-        return Bound(side, str(self.kind[i]), plain_text(self.layer[i]), self.handle[i], float(min(d)), x, y,
+        return Bound(side, self.what(i), plain_text(self.layer[i]), self.handle[i], float(min(d)), x, y,
                      self.id_name)
+
+    def what(self, i: int) -> str:
+        """What obstacle ``i`` is: "linework" or "solid", with its DXF entity type where kept."""
+        etype = self.etype[i]
+        return f"{self.kind[i]} ({plain_text(etype)})" if etype else str(self.kind[i])
 
     def collides(self, poly: Any) -> bool:
         if self.floor_union is None:
@@ -114,6 +109,24 @@ class _Obstacles:
             g = self.floor_geoms[int(i)]
             area += poly.intersection(g).area if g.geom_type.endswith("Polygon") else poly.intersection(g).length * 0.01
         return area
+
+
+def _per_obstacle(plan: Any, w_key: str, s_key: str, n_walls: int, n_solids: int) -> list[str | None]:
+    """One text per obstacle (walls, then solids) from the plan's optional arrays; None where unknown."""
+    out: list[str | None] = [None] * (n_walls + n_solids)
+    for key, start, n in ((w_key, 0, n_walls), (s_key, n_walls, n_solids)):
+        values = getattr(plan, key, None)
+        if values is not None and len(values) == n:
+            out[start:start + n] = [None if v is None or v == "" else str(v) for v in values]
+    return out
+
+
+def _entity_ids(plan: Any, n_walls: int, n_solids: int) -> tuple[list[str | None], str]:
+    """The entity each obstacle came from: element ids of a building model, else DXF handles."""
+    for w_key, s_key, name in (("wall_ids", "solid_ids", "element id"), ("wall_handles", "solid_handles", "handle")):
+        if getattr(plan, w_key, None) is not None or getattr(plan, s_key, None) is not None:
+            return _per_obstacle(plan, w_key, s_key, n_walls, n_solids), name
+    return [None] * (n_walls + n_solids), "handle"
 
 
 def sheet_obstacles(result: Any) -> _Obstacles:

@@ -135,13 +135,15 @@ def _ring_polygon(ring: np.ndarray) -> list[shapely.Polygon]:
 def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set[int], leaves: set[int],  # noqa: C901
                     keep_leaves: bool, notes: Counter, mpu: float, tol_units: float):
     """Linework paths and solid polygons in drawing units (world frame), each with its
-    attributes (layer, bottom, top) in parallel lists ``wall_attrs`` / ``solid_attrs``."""
+    attributes (layer, bottom, top, handle, entity type) in parallel lists ``wall_attrs`` /
+    ``solid_attrs``. The handle is the model-space entity's (the INSERT's for a block member)."""
     walls: list[np.ndarray] = []
     solids: list[shapely.Polygon] = []
-    wall_attrs: list[tuple[str, float, float]] = []
-    solid_attrs: list[tuple[str, float, float]] = []
+    wall_attrs: list[tuple[str, float, float, str, str]] = []
+    solid_attrs: list[tuple[str, float, float, str, str]] = []
     pools: dict[tuple[int, str], list[shapely.LineString]] = {}
     pool_z: dict[tuple[int, str], tuple[float, float]] = {}
+    pool_src: dict[tuple[int, str], tuple[str, str]] = {}
 
     def add_walls(items, attrs):
         items = list(items)
@@ -166,7 +168,7 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
         if role in ("door", "opening"):
             role = "wall"      # frames, windows and other lines on door layers stay obstacles
         paths = flat[i]
-        attrs = (p.layer, p.z0, p.z1)
+        attrs = (p.layer, p.z0, p.z1, *_source(p))
         if p.kind == "fill":
             if p.dxftype in ("HATCH", "MPOLYGON"):
                 polys = [poly for ring in paths for poly in _ring_polygon(ring)]
@@ -209,16 +211,17 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
                 pools.setdefault(key, []).extend(shapely.LineString(x) for x in paths if len(x) >= 2)
                 z0, z1 = pool_z.get(key, (math.inf, -math.inf))
                 pool_z[key] = (min(z0, p.z0), max(z1, p.z1))
+                pool_src.setdefault(key, _source(p))
             continue
         add_walls(paths, attrs)
     for key, lines in pools.items():
-        attrs = (key[1], *pool_z[key])
+        attrs = (key[1], *pool_z[key], *pool_src[key])
         try:
             # snap to a grid far below the chord tolerance so that arc ends meet exactly
             noded = shapely.union_all(shapely.set_precision(np.array(lines, dtype=object), tol_units / 100.0))
             polys, cuts, dangles, invalid = shapely.polygonize_full(shapely.get_parts(noded))
         except GEOSException:
-            walls.extend(np.asarray(x.coords) for x in lines)      # keep the outline as linework
+            add_walls((np.asarray(x.coords) for x in lines), attrs)      # keep the outline as linework
             notes["solid-lines-no-face"] += len(lines)
             continue
         faces = [g for g in shapely.get_parts(polys) if g.area > 0]
@@ -231,6 +234,14 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
         if not faces:
             notes["solid-lines-no-face"] += len(lines)
     return walls, solids, wall_attrs, solid_attrs
+
+
+def _source(p: Prim) -> tuple[str, str]:
+    """(handle, entity type) a sheet names for an obstacle from ``p``: the model-space entity, so
+    a block member is named by its INSERT (the entity a planner can select in the drawing)."""
+    if p.top and p.top != p.handle:
+        return p.top, f"{p.dxftype} in INSERT"
+    return p.handle or "", p.dxftype
 
 
 def _flatten_all(prims: list[Prim], tol_units: float, issues: list[ImportIssue]) -> list[list[np.ndarray]]:
@@ -482,6 +493,10 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
                 wall_layers=np.array([a[0] for a in w_attr], dtype=object),
                 solid_layers=np.array([a[0] for a in s_attr], dtype=object),
                 wall_heights=heights(w_attr), solid_heights=heights(s_attr),
+                wall_handles=np.array([a[3] for a in w_attr], dtype=object),
+                solid_handles=np.array([a[3] for a in s_attr], dtype=object),
+                wall_types=np.array([a[4] for a in w_attr], dtype=object),
+                solid_types=np.array([a[4] for a in s_attr], dtype=object),
                 units=decision.name, metres_per_unit=mpu, unit_reason=decision.reason,
                 curve_tolerance_m=curve_tolerance_m, doors=doorways, labels=labels, layers=layer_infos,
                 issues=issues, dxf_version=doc.dxfversion)
