@@ -18,7 +18,7 @@ from floorfit.commands.size import add_station_arguments, read_site_and_vehicle,
 
 NAME = "compare"
 HELP = ("compare two layouts for a vehicle: findings that appeared, disappeared or got worse, "
-        "station pairs lost or gained; writes an HTML page and JSON")
+        "station pairs lost or gained; writes an HTML page, a PDF with a sheet per changed finding, and JSON")
 ORDER = 25
 
 __all__ = ["NAME", "HELP", "ORDER", "add_arguments", "run"]
@@ -38,6 +38,10 @@ def add_arguments(p) -> None:
     p.add_argument("--no-reports", action="store_true",
                    help="do not write the full report of each layout into DIR/before and DIR/after")
     p.add_argument("--force", action="store_true", help="write the reports into folders that hold other files")
+    p.add_argument("--revision", metavar="REV", help="revision on report.pdf (overrides the site file's [project])")
+    p.add_argument("--paper", choices=("a4", "letter", "a3"), default="a4", help="paper of report.pdf (default a4)")
+    p.add_argument("--no-pdf", action="store_true",
+                   help="do not write report.pdf (a sheet per finding that appeared, got worse or disappeared)")
 
 
 def run(args) -> int:
@@ -65,8 +69,11 @@ def run(args) -> int:
                                  match_distance_m=args.match_distance, workers=args.workers,
                                  progress=progress.stage)
     progress.stage("writing the comparison")
+    project = dict(site.project)
+    if args.revision:
+        project["revision"] = args.revision
     written = write_comparison(comparison, args.out, reports=not args.no_reports, force=args.force,
-                               quiet=True)
+                               quiet=True, pdf=not args.no_pdf, project=project, paper=args.paper)
     progress.done()
     print("\n".join(comparison.summary_lines()))
     budget = comparison.before.settings.get("max_direction_changes")
@@ -74,4 +81,6 @@ def run(args) -> int:
         print(f"  both layouts judged by drivable paths within {budget} direction change{'s' if budget != 1 else ''} "
               f"per drive between two stations (--max-direction-changes)")
     print(f"comparison: {written['html']}")
+    if "pdf" in written:
+        print(f"sheets: {written['pdf']}")
     return 1 if comparison.after_worse else 0

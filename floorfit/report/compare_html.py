@@ -6,6 +6,8 @@
   findings that appeared or got worse ringed on AFTER, those that disappeared ringed on
   BEFORE (and the ones that got better ringed on AFTER), with a legend, and tables of
   the changes and of the station pairs that lost or gained reachability;
+- ``report.pdf``: a cover and one finding sheet per finding that appeared, got worse or
+  disappeared (:mod:`floorfit.report.compare_pdf`), with the title block of a check's report;
 - ``comparison.json``: the same for machines (stable: sorted keys, rounded, no
   timestamps), written last, so the folder is complete exactly when it is there;
 - ``before/`` and ``after/``: the full site-check report of each layout
@@ -32,7 +34,7 @@ __all__ = ["CHANGE_STYLES", "comparison_figures", "render_comparison_html", "wri
            "write_bytes_atomic", "stable_json", "COMPARISON_FILES"]
 
 #: Output file names.
-COMPARISON_FILES = {"html": "comparison.html", "json": "comparison.json"}
+COMPARISON_FILES = {"html": "comparison.html", "pdf": "report.pdf", "json": "comparison.json"}
 
 #: How each change is highlighted: (ring colour, line style, legend text, which plan).
 #: Two hues far apart for the common colour-vision deficiencies, and a different line
@@ -281,8 +283,14 @@ def render_comparison_html(comparison: Any, images: dict[str, Any], links: dict[
 
 
 def write_comparison(comparison: Any, out_dir: str | os.PathLike, *, reports: bool = True, force: bool = False,
-                     quiet: bool = True) -> dict[str, Path]:
-    """Write the comparison files into ``out_dir`` (created if missing); return ``{name: path}``."""
+                     quiet: bool = True, pdf: bool = True, project: Any = None, paper: str = "a4") -> dict[str, Path]:
+    """Write the comparison files into ``out_dir`` (created if missing); return ``{name: path}``.
+
+    ``pdf``: also ``report.pdf``, a sheet per finding that appeared, got worse or disappeared
+    (:mod:`floorfit.report.compare_pdf`) with ``project`` fields (a ProjectInfo or a mapping) on
+    ``paper``; the full reports of ``before/`` and ``after/`` get the same fields and paper."""
+    from floorfit.report.compare_pdf import render_comparison_pdf
+    from floorfit.report.project import ProjectInfo
     from floorfit.report.writer import write_report
 
     out_dir = Path(out_dir)
@@ -292,6 +300,9 @@ def write_comparison(comparison: Any, out_dir: str | os.PathLike, *, reports: bo
     links = {"before": "before/report.html", "after": "after/report.html"} if reports else {}
     page = render_comparison_html(comparison, images, links).encode("utf-8")
     data = stable_json(comparison.to_dict())
+    if project is not None and not isinstance(project, ProjectInfo):
+        project = ProjectInfo.from_mapping(project)
+    document = render_comparison_pdf(comparison, project=project, paper=paper) if pdf else None
     try:
         out_dir.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
@@ -300,8 +311,11 @@ def write_comparison(comparison: Any, out_dir: str | os.PathLike, *, reports: bo
     written: dict[str, Path] = {}
     if reports:
         for side in ("before", "after"):
-            files = write_report(getattr(comparison, side), out_dir / side, force=force, quiet=quiet)
+            files = write_report(getattr(comparison, side), out_dir / side, force=force, quiet=quiet,
+                                 project=project, paper=paper)
             written[side] = files["html"] if "html" in files else out_dir / side
     written["html"] = write_bytes_atomic(out_dir / COMPARISON_FILES["html"], page)
+    if document is not None:
+        written["pdf"] = write_bytes_atomic(out_dir / COMPARISON_FILES["pdf"], document)
     written["json"] = write_bytes_atomic(out_dir / COMPARISON_FILES["json"], data)
     return written

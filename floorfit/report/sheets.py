@@ -281,7 +281,7 @@ def _height_contents(sheet: Sheet, result: Any, obst: _Obstacles) -> None:
             i = min(idx, key=lambda j: obst.bottom[j])
             q = shapely.ops.nearest_points(obst.geoms[i], shapely.Point(lx, ly))[0]
             x, y = plan.to_drawing(q.x, q.y)
-            sheet.bounds.append(Bound("overhead", f"{obst.kind[i]} starting {obst.bottom[i]:.2f} m above the floor",
+            sheet.bounds.append(Bound("overhead", f"{obst.what(i)} starting {obst.bottom[i]:.2f} m above the floor",
                                       plain_text(obst.layer[i]), obst.handle[i],
                                       float(obst.geoms[i].distance(shapely.Point(lx, ly))), x, y, obst.id_name))
 
@@ -333,13 +333,17 @@ def _focus(sheet: Sheet, result: Any) -> tuple[float, float, float, float]:
 
 
 def build_sheets(result: Any, *, viewport_mm: tuple[float, float] = VIEWPORT_MM,
-                 ctx: RemedyContext | None = None, obstacles: Any = None) -> list[Sheet]:
-    """The sheets of all findings, in report order (the numbers of the findings table)."""
+                 ctx: RemedyContext | None = None, obstacles: Any = None, only: Any = None) -> list[Sheet]:
+    """The sheets of all findings, in report order (the numbers of the findings table); ``only``:
+    a collection of some of ``result.findings`` to build the sheets of (the others keep their numbers)."""
     ctx = ctx or RemedyContext(result)
     obst = obstacles or _Obstacles(result.plan)
     sheets = []
     cuts = getattr(result, "cuts", {}) or {}
+    chosen = None if only is None else {id(f) for f in only}
     for number, f in numbered_findings(result.findings):
+        if chosen is not None and id(f) not in chosen:
+            continue
         remedy = compute_remedy(result, f, ctx)
         sheet = Sheet(number=number, finding=f, centre=(f.x, f.y), focus=(f.x, f.y, f.x, f.y), scale=SCALES[0],
                       cropped=False, remedy=remedy, numbers=_numbers(f))
