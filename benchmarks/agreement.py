@@ -4,7 +4,7 @@
 
 For every site and footprint, on the 72-heading grid (5° step):
 
-* free space of the integer-clipping path (``UNION_BACKEND = "clipper"``, the default
+* free space of the integer-clipping path (``freespace.UNION_BACKEND = "clipper"``, the default
   when pyclipper is installed) against the GEOS path (shapely unions by cluster), and
   against the reference construction of ``tests/test_perf_agreement.py`` (convex hulls
   of pairwise vertex sums, obstacle by obstacle, one ``union_all``) on a subset of
@@ -70,6 +70,7 @@ def _match_findings(fa, fb, tol: float) -> dict:
 def run_case(size: str, fp: str, check: bool) -> dict:
     import floorfit
     from floorfit.analysis.check import run_check
+    from floorfit.cspace import freespace
     from floorfit.cspace import slices as cspace
     from floorfit.cspace.headings import HeadingCells, make_heading_cells
     from floorfit.plan.site import read_site
@@ -84,14 +85,14 @@ def run_case(size: str, fp: str, check: bool) -> dict:
     stations = {s.name: plan.to_local(s.x, s.y) for s in site.stations}
     cells = make_heading_cells(5.0)
     out: dict = {"size": size, "footprint": fp}
-    backend = cspace.UNION_BACKEND
+    backend = freespace.UNION_BACKEND
     try:
         t = time.perf_counter()
-        cspace.UNION_BACKEND = "clipper"
+        freespace.UNION_BACKEND = "clipper"
         fast = cspace.build_slices(plan, vehicle, cells=cells, workers=2)
         out["fast_s"] = time.perf_counter() - t
         t = time.perf_counter()
-        cspace.UNION_BACKEND = "geos"
+        freespace.UNION_BACKEND = "geos"
         plain = cspace.build_slices(plan, vehicle, cells=cells, workers=2)
         out["geos_s"] = time.perf_counter() - t
         out["fast_vs_geos"] = _compare_slices(fast, plain)
@@ -111,7 +112,7 @@ def run_case(size: str, fp: str, check: bool) -> dict:
         if check:
             results = {}
             for name in ("clipper", "geos"):
-                cspace.UNION_BACKEND = name
+                freespace.UNION_BACKEND = name
                 t = time.perf_counter()
                 results[name] = run_check(plan, vehicle, list(site.stations), site=site, heading_step_deg=5.0,
                                           workers=2)
@@ -122,7 +123,7 @@ def run_case(size: str, fp: str, check: bool) -> dict:
             out["check_findings"] = _match_findings(a.findings, b.findings, tol)
             out["location_tolerance_m"] = tol
     finally:
-        cspace.UNION_BACKEND = backend
+        freespace.UNION_BACKEND = backend
     return out
 
 
@@ -133,8 +134,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--check-sizes", default="small,medium", help="sizes on which the whole check is compared")
     ap.add_argument("--json", default=str(RESULTS / "agreement.json"))
     args = ap.parse_args(argv)
-    from floorfit.cspace import slices as cspace
-    if cspace.pyclipper is None:
+    from floorfit.cspace import freespace
+    if freespace.pyclipper is None:
         print("pyclipper is not installed: there is only one path to compare")
         return 0
     check_sizes = set(filter(None, args.check_sizes.split(",")))

@@ -13,11 +13,13 @@ import numpy as np
 import pytest
 import shapely
 
+from floorfit.cspace import freespace, slicepool
 from floorfit.cspace import slices as cspace
+from floorfit.cspace.freespace import obstacle_clusters
 from floorfit.cspace.headings import make_heading_cells
 from floorfit.cspace.minkowski import prepare_obstacles
 from floorfit.cspace.roadmap import build_roadmap
-from floorfit.cspace.slices import build_slices, half_turn_twins, obstacle_clusters, slice_recipe
+from floorfit.cspace.slices import build_slices, half_turn_twins, slice_recipe
 from floorfit.plan.dxf.cleanup import _orient_exact, clean_segments
 from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import vehicle_from_outline
@@ -80,14 +82,14 @@ def test_rooms_plan_is_one_big_cluster(rooms, cells):
     obs = prepare_obstacles(rooms.walls, rooms.solids)
     labels = obstacle_clusters(obs, cspace.cluster_reach_m(slice_recipe(rooms, veh, cells, "sound")))
     # every wall piece touches the next: the cascade threshold is reached by one cluster
-    assert np.bincount(labels).max() >= cspace.CASCADE_MIN_RINGS
+    assert np.bincount(labels).max() >= freespace.CASCADE_MIN_RINGS
 
 
 @pytest.mark.parametrize("bound", ["sound", "optimistic"])
 def test_cascaded_union_equals_one_sweep(rooms, cells, bound, monkeypatch):
     veh = vehicle_from_outline(OFFSET, name="axle")
     cascaded = build_slices(rooms, veh, cells=cells, bound=bound)
-    monkeypatch.setattr(cspace, "CASCADE_MIN_RINGS", 10 ** 9)
+    monkeypatch.setattr(freespace, "CASCADE_MIN_RINGS", 10 ** 9)
     one_sweep = build_slices(rooms, veh, cells=cells, bound=bound)
     # the cascade grows the sound footprint by CASCADE_GUARD_M (64 grid steps, 6e-11 m) more:
     # areas differ by at most that times the boundary length
@@ -145,7 +147,7 @@ def test_shared_slices_equal_slices_computed_one_by_one(rooms, cells, bound, mon
 
 def test_two_workers_give_the_same_slices_as_one(rooms, cells, monkeypatch):
     veh = vehicle_from_outline(OFFSET, name="axle")
-    monkeypatch.setattr(cspace, "POOL_MIN_WORK", 0)
+    monkeypatch.setattr(slicepool, "POOL_MIN_WORK", 0)
     one = build_slices(rooms, veh, cells=cells, workers=1)
     two = build_slices(rooms, veh, cells=cells, workers=2)
     assert one.workers_used == 1 and two.workers_used == 2
@@ -154,8 +156,8 @@ def test_two_workers_give_the_same_slices_as_one(rooms, cells, monkeypatch):
 
 
 def test_worker_count_defaults_to_every_core():
-    assert cspace.worker_count(3) == 3
-    assert cspace.worker_count(None) == cspace.worker_count(0) >= 1
+    assert slicepool.worker_count(3) == 3
+    assert slicepool.worker_count(None) == slicepool.worker_count(0) >= 1
 
 
 def _covered_exactly(seg, cleaned) -> bool:

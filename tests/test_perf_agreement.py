@@ -21,12 +21,13 @@ from hypothesis import strategies as st
 from shapely.geometry import Polygon
 
 import floorfit as ff
-from floorfit.cspace import slices as cspace
+from floorfit.cspace import freespace
 from floorfit.cspace.collision import PoseChecker
+from floorfit.cspace.freespace import free_components
 from floorfit.cspace.headings import make_heading_cells
 from floorfit.cspace.minkowski import ConvexGroup, convex_sums, footprint_parts_at, is_convex, prepare_obstacles
 from floorfit.cspace.roadmap import build_roadmap
-from floorfit.cspace.slices import SliceSet, build_slices, free_components, slice_domain, slice_recipe
+from floorfit.cspace.slices import SliceSet, build_slices, slice_domain, slice_recipe
 from floorfit.plan.model import Plan
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -173,16 +174,16 @@ def test_optimised_slices_equal_reference_on_generated_site(small_site, fp, boun
     assert _reach(ours, _stations_local(site, plan)) == _reach(ref, _stations_local(site, plan))
 
 
-@pytest.mark.skipif(cspace.pyclipper is None, reason="pyclipper not installed: only the GEOS path exists")
+@pytest.mark.skipif(freespace.pyclipper is None, reason="pyclipper not installed: only the GEOS path exists")
 @pytest.mark.parametrize("bound", ["sound", "optimistic"])
 def test_integer_clipping_agrees_with_geos_overlay(small_site, monkeypatch, bound):
     # the two ways of forming the free space: one integer sweep (pyclipper) and GEOS unions
     _, plan = small_site
     veh = vehicle("tugcart")
     cells = make_heading_cells(45.0)
-    monkeypatch.setattr(cspace, "UNION_BACKEND", "clipper")
+    monkeypatch.setattr(freespace, "UNION_BACKEND", "clipper")
     fast = build_slices(plan, veh, cells=cells, bound=bound)
-    monkeypatch.setattr(cspace, "UNION_BACKEND", "geos")
+    monkeypatch.setattr(freespace, "UNION_BACKEND", "geos")
     geos = build_slices(plan, veh, cells=cells, bound=bound)
     for a, b in zip(fast.components, geos.components):
         assert len(a) == len(b)

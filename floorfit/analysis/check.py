@@ -37,7 +37,8 @@ from floorfit.analysis.tight import tight_findings
 from floorfit.analysis.traffic import traffic_stage
 from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.sizelimits import check_problem_size
-from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for, pool_size
+from floorfit.cspace.slicepool import pool_size
+from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for
 from floorfit.errors import SiteError
 from floorfit.plan.model import Plan
 from floorfit.plan.site import Site

@@ -79,7 +79,8 @@ def _limits(args):
 
 def run(args) -> int:
     from floorfit.cspace.roadmap import build_roadmap
-    from floorfit.cspace.slices import build_slices, cached_share, choose_headings, obstacles_for, pool_size
+    from floorfit.cspace.slicepool import pool_size
+    from floorfit.cspace.slices import build_slices, cached_share, choose_headings, obstacles_for
     from floorfit.motion.route_query import NOT_FOUND_WITHIN_LIMITS, find_route
     from floorfit.report.progress import Progress
     from floorfit.vehicles.rigid import load_vehicle

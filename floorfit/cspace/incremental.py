@@ -29,19 +29,15 @@ import numpy as np
 import shapely
 from shapely.geometry import Polygon, box
 
+from floorfit.cspace.freespace import canonical_order, free_components, obstacle_clusters, slice_free, union_polygons
 from floorfit.cspace.minkowski import ObstacleSet, prepare_obstacles
 from floorfit.cspace.slices import (
     SliceSet,
     build_slices,
-    canonical_order,
     cluster_reach_m,
-    free_components,
-    obstacle_clusters,
     obstacles_met,
     slice_domain,
-    slice_free,
     slice_recipe,
-    union_polygons,
 )
 from floorfit.plan.model import Plan
 

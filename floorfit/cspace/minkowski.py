@@ -520,7 +520,7 @@ def cobstacle_rings(obstacles: ObstacleSet, part_vertices: list[np.ndarray],
     Rings are open (the first vertex is not repeated); shells run counter-clockwise and
     holes clockwise, so the C-obstacle is where the winding number is not zero. ``owner``
     is the index of the obstacle piece a ring comes from (the convex groups in order, then
-    the non-convex solids), as used by :func:`floorfit.cspace.slices.obstacle_clusters`.
+    the non-convex solids), as used by :func:`floorfit.cspace.freespace.obstacle_clusters`.
     """
     coords, counts, owner = [], [], []
     start = 0

@@ -23,28 +23,30 @@ Speed
 -----
 The obstacles are prepared once for all headings (:func:`floorfit.cspace.minkowski.prepare_obstacles`).
 Obstacles farther apart than the footprint's diameter can never have overlapping
-C-obstacles, so they are grouped into clusters once (:func:`obstacle_clusters`) and each
-slice unions every cluster's pieces on its own; the cluster unions are disjoint and form
-the C-obstacle directly. Headings are independent and run on a process pool
-(``workers``); a single heading's union is not split (that does not pay).
+C-obstacles, so they are grouped into clusters once
+(:func:`floorfit.cspace.freespace.obstacle_clusters`) and each slice unions every cluster's
+pieces on its own; the cluster unions are disjoint and form the C-obstacle directly
+(:mod:`floorfit.cspace.freespace`). Headings are independent and run on a process pool
+(``workers``, :mod:`floorfit.cspace.slicepool`); a single heading's union is not split (that
+does not pay).
+
+This module owns the choice of heading cells, the per-slice recipe (footprint parts,
+growths, tolerance), half-turn twins, :class:`SliceSet` and :func:`build_slices`.
 """
 
 from __future__ import annotations
 
 import math
-import os
-import signal
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
 import shapely
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
 from scipy.spatial.distance import pdist
 from shapely.geometry import Polygon, box
 
+from floorfit.cspace import freespace
+from floorfit.cspace.freespace import CLIP_GUARD_M, MIN_COMPONENT_AREA_M2, obstacle_clusters
 from floorfit.cspace.headings import (
     HeadingCells,
     default_step_deg,
@@ -55,30 +57,18 @@ from floorfit.cspace.headings import (
 )
 from floorfit.cspace.minkowski import (
     ObstacleSet,
-    cobstacle_pieces,
-    cobstacle_rings,
     convex_parts,
     footprint_parts_at,
     prepare_obstacles,
 )
+from floorfit.cspace.slicepool import pool_size, run_slice_jobs
 from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import Vehicle
 
-try:                                   # integer polygon clipping (Vatti); the GEOS path is the fallback
-    import pyclipper
-except ImportError:                    # pragma: no cover - depends on the installation
-    pyclipper = None
+__all__ = ["SliceSet", "build_slices", "choose_headings", "obstacles_for", "obstacles_met",
+           "SliceRecipe", "slice_recipe", "slice_domain", "cluster_reach_m", "DOMAIN_PAD_M", "BOUNDS",
+           "half_turn_twins", "shared_jobs", "TWIN_GROW_TOL_M", "cached_share"]
 
-__all__ = ["SliceSet", "build_slices", "choose_headings", "obstacles_for", "obstacles_met", "obstacle_clusters",
-           "SliceRecipe", "slice_recipe", "slice_domain", "cluster_reach_m", "run_slice_jobs", "slice_cobstacle",
-           "slice_free", "free_components", "canonical_order", "union_polygons", "UNION_BACKEND", "CLIP_SCALE",
-           "CLIP_GUARD_M", "MIN_COMPONENT_AREA_M2", "DOMAIN_PAD_M", "BOUNDS", "half_turn_twins",
-           "CASCADE_MIN_RINGS", "CASCADE_GUARD_M", "CASCADE_LEAF", "CASCADE_FANOUT", "worker_count", "pool_size",
-           "POOL_MIN_WORK",
-           "shared_jobs", "TWIN_GROW_TOL_M", "cached_share"]
-
-#: Free-space components smaller than this are dropped, square metres.
-MIN_COMPONENT_AREA_M2 = 1e-6
 #: Free space extends this far (plus the vehicle radius) beyond the obstacles, metres.
 DOMAIN_PAD_M = 1.0
 BOUNDS = ("sound", "optimistic")
@@ -173,326 +163,6 @@ def default_step(plan: Plan, vehicle: Vehicle) -> float:
 # --- end heading step
 
 
-def obstacle_clusters(obstacles: ObstacleSet, reach_m: float) -> np.ndarray:
-    """Cluster label of every C-obstacle piece :func:`cobstacle_pieces` returns for ONE footprint part.
-
-    Pieces of obstacles farther apart than ``reach_m`` (at least the footprint's diameter)
-    can never have overlapping C-obstacles: if o1 − f1 = o2 − f2 then |o1 − o2| = |f1 − f2|.
-    So each cluster of obstacles closer than ``reach_m`` to one another is unioned on its
-    own and the results are disjoint. Labels run over the convex groups in order, then
-    the non-convex solids.
-    """
-    geoms = []
-    for G in obstacles.convex_groups:
-        V = G.vertices
-        geoms.append(shapely.linestrings(V) if V.shape[1] == 2 else shapely.polygons(V))
-    if len(obstacles.nonconvex):
-        geoms.append(np.asarray(obstacles.nonconvex, dtype=object))
-    if not geoms:
-        return np.zeros(0, dtype=np.int64)
-    geoms = np.concatenate(geoms)
-    # pairs whose bounding boxes come within reach, then the exact distance of those pairs
-    # (five times faster than the tree's dwithin predicate on a real floor of 16,500 pieces)
-    b = shapely.bounds(geoms)
-    near = shapely.box(b[:, 0] - reach_m, b[:, 1] - reach_m, b[:, 2] + reach_m, b[:, 3] + reach_m)
-    i, j = shapely.STRtree(geoms).query(near)
-    upper = i < j
-    i, j = i[upper], j[upper]
-    close = shapely.distance(geoms[i], geoms[j]) <= reach_m
-    i, j = i[close], j[close]
-    n = len(geoms)
-    graph = coo_matrix((np.ones(len(i), dtype=np.int8), (i, j)), shape=(n, n))
-    return connected_components(graph, directed=False)[1]
-
-
-def _piece_labels(obstacles: ObstacleSet, labels: np.ndarray, n_parts: int) -> np.ndarray:
-    n_convex = sum(len(G) for G in obstacles.convex_groups)
-    return np.concatenate([np.tile(labels[:n_convex], n_parts), labels[n_convex:]])
-
-
-def _union_by_cluster(pieces: np.ndarray, labels: np.ndarray | None):
-    """Union of ``pieces``; with cluster ``labels`` (disjoint clusters) one union per cluster."""
-    if labels is None or len(pieces) != len(labels) or len(pieces) < 2:
-        return shapely.union_all(pieces) if len(pieces) else Polygon()
-    order = np.argsort(labels, kind="stable")
-    cut = np.flatnonzero(np.diff(labels[order])) + 1
-    if not len(cut):
-        return shapely.union_all(pieces)
-    polys = []
-    for grp in np.split(pieces[order], cut):
-        u = grp[0] if len(grp) == 1 else shapely.union_all(grp)
-        polys.extend(g for g in shapely.get_parts(u) if shapely.get_type_id(g) == 3)
-    return shapely.multipolygons(polys)
-
-
-def slice_cobstacle(obstacles: ObstacleSet, parts: list[Polygon], heading: float, grow: float,
-                    anchor_local: np.ndarray, labels: np.ndarray | None = None):
-    """The C-obstacle of one slice: the union of ``O ⊕ (−P)`` over obstacles O and footprint parts P.
-
-    ``parts`` (vehicle frame) are rotated to ``heading`` (degrees) and offset by ``grow``
-    metres (mitre; negative values are taken as 0); ``anchor_local`` is the footprint point
-    that translates non-convex solids; ``labels`` the clusters of
-    :func:`obstacle_clusters` (optional, for speed only). Local frame, metres.
-    """
-    verts = footprint_parts_at(parts, heading, grow if grow >= 0 else 0.0)
-    t = math.radians(heading)
-    c, s = math.cos(t), math.sin(t)
-    anchor = np.array([c * anchor_local[0] - s * anchor_local[1], s * anchor_local[0] + c * anchor_local[1]])
-    pieces = cobstacle_pieces(obstacles, verts, anchor)
-    piece_labels = _piece_labels(obstacles, labels, len(verts)) if labels is not None else None
-    return _union_by_cluster(pieces, piece_labels)
-
-
-def canonical_order(comps: np.ndarray) -> np.ndarray:
-    """Components sorted by the lower-left corner of their bounds (then area), to 1e-9 m.
-
-    The order does not depend on how the free space was computed (either overlay path, a
-    full build or :func:`floorfit.cspace.incremental.update_slices`), so node numbers ``(k, i)``
-    and anything that samples components in order agree between them.
-    """
-    if len(comps) < 2:
-        return comps
-    b = np.round(shapely.bounds(comps) * 1e9)
-    order = np.lexsort((np.round(shapely.area(comps) * 1e9), b[:, 3], b[:, 2], b[:, 1], b[:, 0]))
-    return comps[order]
-
-
-def free_components(free) -> np.ndarray:
-    """Polygon components of a free geometry (canonical order), without those under ``MIN_COMPONENT_AREA_M2``."""
-    comps = shapely.get_parts(free)
-    comps = comps[shapely.get_type_id(comps) == 3] if len(comps) else comps
-    if len(comps):
-        comps = comps[shapely.area(comps) > MIN_COMPONENT_AREA_M2]
-    return canonical_order(comps)
-
-
-#: How the slices' free space is computed: ``"clipper"`` (one Vatti sweep over all pieces on
-#: an integer grid, pyclipper) when available, else ``"geos"`` (shapely unions by cluster).
-UNION_BACKEND = "clipper" if pyclipper is not None else "geos"
-#: Grid of the integer clipping: coordinates are multiples of 2**-40 m (about 0.9e-12 m).
-CLIP_SCALE = float(2 ** 40)
-#: The sound footprint is grown by this much more (metres): 4 grid steps, more than the
-#: snapping can move a boundary (input vertices ½ step per coordinate, intersection points
-#: ½ step in each of the two sweeps: at most 1.5·√2 steps), so a C-obstacle never shrinks
-#: and poses that touch an obstacle are never inside the free space.
-CLIP_GUARD_M = 4.0 / CLIP_SCALE
-
-
-def _region_paths(region) -> list[np.ndarray]:
-    rings = shapely.get_rings(shapely.get_parts(region))
-    out = []
-    for r in rings:
-        c = np.asarray(r.coords)[:-1]
-        if len(c) >= 3:
-            out.append(np.round(c * CLIP_SCALE).astype(np.int64))
-    return out
-
-
-def _tree_polygons(tree) -> list:
-    """Polygons of a pyclipper PolyTree (outer contours with their holes; islands in holes as new polygons)."""
-    out = []
-    stack = list(tree.Childs)
-    while stack:
-        node = stack.pop()
-        shell = np.asarray(node.Contour, dtype=float) / CLIP_SCALE
-        holes = [np.asarray(h.Contour, dtype=float) / CLIP_SCALE for h in node.Childs]
-        out.append(shapely.Polygon(shell, holes))
-        for h in node.Childs:
-            stack.extend(h.Childs)
-    return out
-
-
-#: A cluster with at least this many rings is unioned divide-and-conquer (:func:`_cascade_union`);
-#: smaller ones in one sweep. On a real drawing the walls form one cluster of thousands of
-#: overlapping pieces, and one sweep over them all grows far worse than linearly.
-CASCADE_MIN_RINGS = 512
-#: Rings per leaf of the cascade (unioned in one sweep before the merges).
-CASCADE_LEAF = 16
-#: Neighbouring results merged in one sweep at each level of the cascade. On a real office
-#: floor (16,500 rings in one cluster) leaves of 16 merged 8 at a time took 30 % less time
-#: than leaves of 32 merged pairwise.
-CASCADE_FANOUT = 8
-#: Extra growth of the sound footprint (metres) when a cascade runs: every level of merges
-#: may round an intersection point by half a grid step (at most √2/2 steps off the true
-#: boundary), so 64 steps cover more than 80 levels, far beyond the ~log8(rings / leaf)
-#: levels a cascade has.
-CASCADE_GUARD_M = 64.0 / CLIP_SCALE
-
-
-def _union_sweep(paths) -> list:
-    pc = pyclipper.Pyclipper()
-    pc.AddPaths(paths, pyclipper.PT_SUBJECT, True)
-    return pc.Execute(pyclipper.CT_UNION, pyclipper.PFT_NONZERO, pyclipper.PFT_NONZERO)
-
-
-def _morton_order(centres: np.ndarray) -> np.ndarray:
-    """Indices of ``centres`` (N, 2) along a Z-order (Morton) curve over their bounds (stable on ties)."""
-    lo = centres.min(axis=0)
-    span = np.maximum(centres.max(axis=0) - lo, 1e-300)
-    q = np.minimum((centres - lo) / span * 65535.0, 65535.0).astype(np.uint64)
-
-    def spread(v):
-        v = (v | (v << np.uint64(8))) & np.uint64(0x00FF00FF)
-        v = (v | (v << np.uint64(4))) & np.uint64(0x0F0F0F0F)
-        v = (v | (v << np.uint64(2))) & np.uint64(0x33333333)
-        return (v | (v << np.uint64(1))) & np.uint64(0x55555555)
-
-    return np.argsort(spread(q[:, 0]) | (spread(q[:, 1]) << np.uint64(1)), kind="stable")
-
-
-def _cascade_union(paths: list, centres: np.ndarray) -> list:
-    """Union of integer ``paths`` (non-zero winding) by divide and conquer, as GEOS's cascaded union does.
-
-    The rings are ordered along a Z-order curve of their centres, unioned in leaves of
-    :data:`CASCADE_LEAF` neighbours, then :data:`CASCADE_FANOUT` neighbouring results at a
-    time are merged up a tree. Each sweep then sees only the edges of one neighbourhood, so
-    the cost grows about as n·log n instead of with n times the edges crossing a scanline
-    of the whole cluster. Deterministic: the same rings give the same result.
-    """
-    order = _morton_order(centres)
-    level = [_union_sweep([paths[i] for i in order[a:a + CASCADE_LEAF]]) for a in range(0, len(order), CASCADE_LEAF)]
-    while len(level) > 1:
-        level = [_union_sweep([p for part in level[a:a + CASCADE_FANOUT] for p in part]) if a + 1 < len(level)
-                 else level[a] for a in range(0, len(level), CASCADE_FANOUT)]
-    return level[0] if level else []
-
-
-def _cascades(counts: np.ndarray, groups: np.ndarray | None) -> bool:
-    """True when some cluster of rings is big enough for :func:`_cascade_union`."""
-    if groups is None:
-        return len(counts) >= CASCADE_MIN_RINGS
-    return bool(len(groups)) and int(np.bincount(groups).max()) >= CASCADE_MIN_RINGS
-
-
-def _clip_free(coords: np.ndarray, counts: np.ndarray, groups: np.ndarray | None, region) -> np.ndarray | None:
-    """``region`` minus the union of the rings (non-zero winding) on the integer grid; None if clipping fails.
-
-    Rings of one obstacle cluster (``groups``: a cluster label per ring) are unioned on
-    their own: in one sweep (few active edges per scanline), or divide-and-conquer
-    (:func:`_cascade_union`) for a cluster of :data:`CASCADE_MIN_RINGS` rings or more. Then
-    all cluster unions, which are disjoint, are subtracted from the region in one last sweep.
-    """
-    ints = np.round(coords * CLIP_SCALE).astype(np.int64)
-    ends = np.cumsum(counts)
-    starts = ends - counts
-    if groups is None and len(counts) >= CASCADE_MIN_RINGS:
-        groups = np.zeros(len(counts), dtype=np.int64)
-    try:
-        if groups is None or not len(counts):
-            paths = [ints[a:b] for a, b in zip(starts, ends)]
-        else:
-            order = np.argsort(groups, kind="stable")
-            paths = []
-            centres = None
-            for grp in np.split(order, np.flatnonzero(np.diff(groups[order])) + 1):
-                if len(grp) == 1:
-                    paths.append(ints[starts[grp[0]]:ends[grp[0]]])
-                elif len(grp) >= CASCADE_MIN_RINGS:
-                    if centres is None:
-                        centres = np.add.reduceat(coords, starts, axis=0) / counts[:, None]
-                    paths.extend(_cascade_union([ints[starts[i]:ends[i]] for i in grp], centres[grp]))
-                else:
-                    paths.extend(_union_sweep([ints[starts[i]:ends[i]] for i in grp]))
-        pc = pyclipper.Pyclipper()
-        pc.StrictlySimple = True
-        if paths:
-            pc.AddPaths(paths, pyclipper.PT_CLIP, True)
-        pc.AddPaths(_region_paths(region), pyclipper.PT_SUBJECT, True)
-        tree = pc.Execute2(pyclipper.CT_DIFFERENCE, pyclipper.PFT_EVENODD, pyclipper.PFT_NONZERO)
-    except pyclipper.ClipperException:
-        return None
-    comps = free_components(np.asarray(_tree_polygons(tree), dtype=object))
-    if len(comps) and not np.all(shapely.is_valid(comps)):
-        return None
-    return comps
-
-
-def _polygon_paths(geoms) -> list[np.ndarray]:
-    """Integer rings of polygons: shells counter-clockwise, holes clockwise (non-zero winding = inside)."""
-    parts = shapely.get_parts(np.asarray(geoms, dtype=object))
-    parts = parts[shapely.get_type_id(parts) == 3] if len(parts) else parts
-    if not len(parts):
-        return []
-    rings = shapely.get_rings(shapely.orient_polygons(parts, exterior_cw=False))
-    xy, idx = shapely.get_coordinates(rings, return_index=True)
-    ints = np.round(xy * CLIP_SCALE).astype(np.int64)
-    ends = np.cumsum(np.bincount(idx, minlength=len(rings)))
-    starts = np.r_[0, ends[:-1]]
-    return [ints[a:b - 1] for a, b in zip(starts, ends) if b - a >= 4]
-
-
-def union_polygons(geoms) -> np.ndarray:
-    """The union of polygons (local frame, metres) as its disjoint polygon components.
-
-    With :data:`UNION_BACKEND` ``"clipper"``: one integer sweep, results on the
-    2**-40 m grid; otherwise (or if that fails) ``shapely.union_all``.
-    """
-    if UNION_BACKEND == "clipper":
-        try:
-            pc = pyclipper.Pyclipper()
-            pc.StrictlySimple = True
-            paths = _polygon_paths(geoms)
-            if not paths:
-                return np.zeros(0, dtype=object)
-            pc.AddPaths(paths, pyclipper.PT_SUBJECT, True)
-            tree = pc.Execute2(pyclipper.CT_UNION, pyclipper.PFT_NONZERO, pyclipper.PFT_NONZERO)
-            polys = np.asarray(_tree_polygons(tree), dtype=object)
-            if not len(polys) or np.all(shapely.is_valid(polys)):
-                return polys
-        except pyclipper.ClipperException:
-            pass
-    parts = shapely.get_parts(shapely.union_all(np.asarray(geoms, dtype=object)))
-    return parts[shapely.get_type_id(parts) == 3] if len(parts) else parts
-
-
-def slice_free(obstacles: ObstacleSet, parts: list[Polygon], heading: float, grow: float, anchor_local: np.ndarray,
-               region, labels: np.ndarray | None = None) -> np.ndarray:
-    """Free-space components of one slice inside ``region`` (a polygon, local frame, metres).
-
-    Same arguments as :func:`slice_cobstacle`. With :data:`UNION_BACKEND` ``"clipper"`` the
-    C-obstacle pieces are subtracted from ``region`` in one integer sweep (results within
-    about 1e-12 m of the GEOS path, which is used when pyclipper is missing or fails).
-    """
-    if UNION_BACKEND == "clipper":
-        t = math.radians(heading)
-        c, s = math.cos(t), math.sin(t)
-        anchor = np.array([c * anchor_local[0] - s * anchor_local[1], s * anchor_local[0] + c * anchor_local[1]])
-        verts = footprint_parts_at(parts, heading, grow if grow >= 0 else 0.0)
-        coords, counts, owner = cobstacle_rings(obstacles, verts, anchor)
-        groups = labels[owner] if labels is not None and len(labels) else None
-        if grow > 0 and _cascades(counts, groups):
-            # a sound slice whose union runs in levels: grow by the rounding those levels may add
-            verts = footprint_parts_at(parts, heading, grow + CASCADE_GUARD_M)
-            coords, counts, owner = cobstacle_rings(obstacles, verts, anchor)
-        comps = _clip_free(coords, counts, groups, region)
-        if comps is not None:
-            return comps
-    cobs = slice_cobstacle(obstacles, parts, heading, grow, anchor_local, labels)
-    return free_components(shapely.difference(region, cobs))
-
-
-def _slice_components(obstacles: ObstacleSet, parts: list[Polygon], heading: float, grow: float,
-                      domain: Polygon, anchor_local: np.ndarray, labels: np.ndarray | None = None) -> np.ndarray:
-    return slice_free(obstacles, parts, heading, grow, anchor_local, domain, labels)
-
-
-# --- process-pool plumbing: the obstacle set is sent once per worker ------------------
-_WORKER: dict = {}
-
-
-def _init_worker(obstacles, domain, labels=None):
-    _WORKER["obstacles"] = obstacles
-    _WORKER["domain"] = domain
-    _WORKER["labels"] = labels
-
-
-def _worker_slice(args):
-    parts, heading, grow, anchor = args
-    return _slice_components(_WORKER["obstacles"], parts, heading, grow, _WORKER["domain"], anchor,
-                             _WORKER.get("labels"))
-
-
-#: Sub-samples per heading cell for the optimistic (inner) footprint.
 OPTIMISTIC_SUBSAMPLES = 8
 
 
@@ -706,79 +376,6 @@ def cluster_reach_m(recipe: SliceRecipe) -> float:
     return recipe.diameter * (1.0 + 1e-9) + 1e-6
 
 
-#: Slice building goes to a process pool only above this much work (obstacle pieces × slices):
-#: below it, starting the processes costs more than they save. The results do not depend on it.
-POOL_MIN_WORK = 100_000
-
-
-def worker_count(workers: int | None) -> int:
-    """Processes to use for ``workers`` (None or 0: every core this process may run on)."""
-    if workers:
-        return max(1, int(workers))
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except (AttributeError, OSError):          # pragma: no cover - platforms without affinity
-        return os.cpu_count() or 1
-
-
-def _ignore_interrupt() -> None:
-    # Ctrl-C reaches the whole process group: the parent stops the pool, workers stay quiet
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
-
-
-def _init_pool_worker(obstacles, domain, labels=None):
-    _ignore_interrupt()
-    _init_worker(obstacles, domain, labels)
-
-
-def run_slice_jobs(obstacles: ObstacleSet, jobs: list, domain: Polygon, labels: np.ndarray | None,
-                   workers: int | None = 1, progress: Callable[[int, int], None] | None = None,
-                   processes: int | None = None) -> list[np.ndarray]:
-    """Free-space components of every job of a :class:`SliceRecipe`, on ``workers`` processes (None: all cores).
-
-    Each slice is computed by the same function whichever process runs it, so the result is
-    the same for any number of workers. Small runs (below :data:`POOL_MIN_WORK`, see
-    :func:`pool_size`) stay in this process; ``processes`` overrides that choice.
-    ``progress(done, total)`` is called as slices complete. Ctrl-C stops the pool and raises
-    KeyboardInterrupt here.
-    """
-    n_workers = pool_size(obstacles, len(jobs), workers) if processes is None else max(1, int(processes))
-    n_workers = min(n_workers, max(1, len(jobs)))
-    total = len(jobs)
-    if progress is not None:
-        progress(0, total)
-    if n_workers > 1:
-        pool = ProcessPoolExecutor(max_workers=n_workers, initializer=_init_pool_worker,
-                                   initargs=(obstacles, domain, labels))
-        try:
-            out = []
-            # small chunks: Ctrl-C waits only for the slices the workers hold
-            for comps in pool.map(_worker_slice, jobs, chunksize=max(1, min(2, len(jobs) // (8 * n_workers)))):
-                out.append(comps)
-                if progress is not None:
-                    progress(len(out), total)
-            pool.shutdown(wait=True)
-            return out
-        except BaseException:
-            # no new slices start; the workers (which ignore Ctrl-C) finish the chunk they hold
-            # and exit (terminating them instead makes the pool's manager thread report errors)
-            pool.shutdown(wait=False, cancel_futures=True)
-            raise
-    out = []
-    for p, h, g, a in jobs:
-        out.append(_slice_components(obstacles, p, h, g, domain, a, labels))
-        if progress is not None:
-            progress(len(out), total)
-    return out
-
-
-def pool_size(obstacles: ObstacleSet, n_jobs: int, workers: int | None) -> int:
-    """Processes to use for ``n_jobs`` slices of ``obstacles`` with ``workers`` asked for (None: all cores):
-    1 for small runs (fewer than 8 slices, or below :data:`POOL_MIN_WORK` pieces × slices)."""
-    n = min(worker_count(workers), max(1, n_jobs))
-    return n if n > 1 and n_jobs >= 8 and obstacles.piece_count * n_jobs >= POOL_MIN_WORK else 1
-
-
 def _half_turn_symmetric(parts: list[Polygon]) -> bool:
     """True when the union of ``parts`` (vehicle frame) is the same point set turned by 180° about the origin."""
     shape = shapely.union_all(parts) if len(parts) > 1 else parts[0]
@@ -936,6 +533,8 @@ def _slice_cache(obstacles: ObstacleSet, domain: Polygon, labels: np.ndarray | N
     folder = active_cache_dir()
     if folder is None:
         return None
-    settings = (UNION_BACKEND, CLIP_SCALE, CLIP_GUARD_M, CASCADE_MIN_RINGS, CASCADE_LEAF, CASCADE_FANOUT,
-                CASCADE_GUARD_M, MIN_COMPONENT_AREA_M2)
+    # read at call time: tests and benchmarks switch these on the freespace module
+    settings = (freespace.UNION_BACKEND, freespace.CLIP_SCALE, freespace.CLIP_GUARD_M, freespace.CASCADE_MIN_RINGS,
+                freespace.CASCADE_LEAF, freespace.CASCADE_FANOUT, freespace.CASCADE_GUARD_M,
+                freespace.MIN_COMPONENT_AREA_M2)
     return SliceCache(folder, obstacles, domain, labels, settings)
