@@ -19,6 +19,7 @@ not cache unless :func:`use_cache` is called.
 from __future__ import annotations
 
 import hashlib
+import importlib.util
 import os
 import tempfile
 from pathlib import Path
@@ -54,12 +55,16 @@ def active_cache_dir() -> Path | None:
     return _ACTIVE["dir"]
 
 
+#: Modules whose source decides the slices: a change to any of them invalidates the cache.
+_SLICE_CODE = ("floorfit.cspace.minkowski", "floorfit.cspace.slices", "floorfit.cspace.freespace",
+               "floorfit.plan.dxf.cleanup")
+
+
 def _code_digest() -> bytes:
-    from floorfit.cspace import minkowski, slices
-    from floorfit.plan.dxf import cleanup
+    """sha256 over the source files of :data:`_SLICE_CODE` (found, not imported: no import cycle)."""
     h = hashlib.sha256()
-    for mod in (minkowski, slices, cleanup):
-        h.update(Path(mod.__file__).read_bytes())
+    for name in _SLICE_CODE:
+        h.update(Path(importlib.util.find_spec(name).origin).read_bytes())
     return h.digest()
 
 
