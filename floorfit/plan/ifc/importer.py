@@ -22,7 +22,8 @@ import numpy as np
 import shapely
 
 from floorfit.errors import PlanImportError
-from floorfit.plan.ifc.doors import measure_doors
+from floorfit.plan.ifc.doors import door_aliases, measure_doors
+from floorfit.plan.ifc.dropoffs import DROP_CLASS, DropOffs, find_dropoffs
 from floorfit.plan.ifc.meshing import LINEAR_DEFLECTION_M, Mesh, mesh_elements
 from floorfit.plan.ifc.reading import (
     LengthUnit,
@@ -34,7 +35,7 @@ from floorfit.plan.ifc.reading import (
     storey_elements,
 )
 from floorfit.plan.ifc.sections import element_pieces, section
-from floorfit.plan.model import ImportIssue, Label, LayerInfo, Plan
+from floorfit.plan.model import FULL_HEIGHT, ImportIssue, Label, LayerInfo, Plan
 
 __all__ = ["IfcImport", "import_model", "DEFAULT_BAND_TOP_M", "FLOOR_SKIN_M", "OVERHEAD_ALLOWANCE_M"]
 
@@ -140,8 +141,9 @@ def _floor_from_walls(meshes: list[Mesh]) -> tuple[float, str]:
     return float(z), f"the wall base nearest z = 0 ({counts[z]} of {len(bottoms)} walls start there)"
 
 
-def _space_labels(spaces: list[Mesh], entities: dict, floor_z: float) -> list[tuple[str, float, float, str]]:
-    """(text, x, y, GlobalId) for each space: its name at the centre of its largest inscribed circle."""
+def _space_labels(spaces: list[Mesh], entities: dict, floor_z: float) -> list[tuple[str, float, float, str, object]]:
+    """(text, x, y, GlobalId, area) for each space: its name at the centre of its largest
+    inscribed circle, and its plan area (drawing frame)."""
     out = []
     for m in spaces:
         e = entities[m.id]
@@ -157,7 +159,7 @@ def _space_labels(spaces: list[Mesh], entities: dict, floor_z: float) -> list[tu
             centre = shapely.get_coordinates(shapely.maximum_inscribed_circle(area, 0.05))[0]
         except (shapely.errors.GEOSException, IndexError):
             centre = shapely.get_coordinates(area.representative_point())[0]
-        out.append((text, float(centre[0]), float(centre[1]), m.global_id))
+        out.append((text, float(centre[0]), float(centre[1]), m.global_id, area))
     return out
 
 
@@ -276,11 +278,13 @@ def _elements_to_mesh(model, storeys, chosen, band_top):
 
 
 def _cut(meshes: list[Mesh], entities: dict, floor_z: float, band: tuple[float, float]):
-    """Obstacles from the meshes, plus the door and space meshes set aside."""
+    """Obstacles from the meshes, plus the door, space and slab meshes set aside."""
     obstacles = _Obstacles()
-    doors, spaces = [], []
+    doors, spaces, slabs = [], [], []
     for m in meshes:
         e = entities[m.id]
+        if e.is_a("IfcSlab"):
+            slabs.append((e, m))
         if e.is_a("IfcDoor"):
             doors.append(m)
         elif e.is_a("IfcSpace"):
@@ -288,7 +292,22 @@ def _cut(meshes: list[Mesh], entities: dict, floor_z: float, band: tuple[float, 
         elif len(m.faces) and not (_is_a_any(e, ("IfcSlab", "IfcCovering"))
                                    and float(m.verts[:, 2].max()) - floor_z <= FLOOR_BUILDUP_M):
             obstacles.add(m, element_pieces(m.verts, m.faces, floor_z, band))
-    return obstacles, doors, spaces
+    return obstacles, doors, spaces, slabs
+
+
+def _add_dropoffs(obs: _Obstacles, slabs, floor_z: float, issues: list[ImportIssue]) -> DropOffs:
+    """Drop-offs (stair wells, open floor edges) as obstacles over the full height band."""
+    standing = [g for g, (bottom, _) in zip(obs.filled, obs.filled_h) if bottom <= FLOOR_SKIN_M]
+    drops = find_dropoffs(slabs, standing, floor_z, FLOOR_BUILDUP_M)
+    issues.append(ImportIssue("drop-offs", drops.message))
+    for area, gid in zip(drops.areas, drops.slab_ids):
+        obs.solids.append(area)
+        obs.solid_h.append(FULL_HEIGHT)
+        obs.solid_cls.append(DROP_CLASS)
+        obs.solid_ids.append(gid)
+    if drops.areas:
+        obs.per_class[DROP_CLASS] += len(drops.areas)
+    return drops
 
 
 def _doorways(measured, unit: LengthUnit, origin, issues: list[ImportIssue]):
@@ -328,7 +347,8 @@ def import_model(path, *, storey: str | float | None = None, band_top_m: float |
                                             f"level with the floor at z = {floor_z:.2f} m: {why}"))
     t2 = time.perf_counter()
     band = (FLOOR_SKIN_M, band_top)
-    obs, door_meshes, space_meshes = _cut(meshes, entities, floor_z, band)
+    obs, door_meshes, space_meshes, slabs = _cut(meshes, entities, floor_z, band)
+    drops = _add_dropoffs(obs, slabs, floor_z, issues)
     seconds["cut"] = time.perf_counter() - t2
     if not obs.solids and not obs.walls:
         where = f"storey {chosen.label}" if chosen is not None else "the building level"
@@ -344,9 +364,11 @@ def import_model(path, *, storey: str | float | None = None, band_top_m: float |
     measured = measure_doors([(entities[m.id], m) for m in door_meshes], obs.filled, obs.filled_h,
                              [g for g, _ in open_lines], [h for _, h in open_lines], floor_z)
     doorways = _doorways(measured, unit, origin, issues)
+    entities_by_gid = {entities[m.id].GlobalId: entities[m.id] for m in door_meshes}
     seconds["doors"] = time.perf_counter() - t3
-    labels = [Label(text, x - origin[0], y - origin[1], "IfcSpace", gid)
-              for text, x, y, gid in _space_labels(space_meshes, entities, floor_z)]
+    spaces = _space_labels(space_meshes, entities, floor_z)
+    labels = [Label(text, x - origin[0], y - origin[1], "IfcSpace", gid) for text, x, y, gid, _ in spaces]
+    rooms = [(text, gid, shapely.transform(area, lambda c: c - np.array(origin))) for text, _, _, gid, area in spaces]
     layers = obs.layers()
     if doorways:
         layers.append(LayerInfo("IfcDoor", "door", len(doorways), "IFC class: passable with the leaf open"))
@@ -371,6 +393,9 @@ def import_model(path, *, storey: str | float | None = None, band_top_m: float |
             "storey": None if chosen is None else chosen.label,
             "storey_id": None if chosen is None else chosen.global_id,
             "floor_z_m": floor_z, "band_m": [FLOOR_SKIN_M, band_top],
+            "rooms": rooms, "door_names": {d.global_id: door_aliases(entities_by_gid[d.global_id])
+                                           for d in measured},
+            "drop_offs": len(drops.areas), "drop_off_m2": round(sum(a.area for a in drops.areas), 3),
         },
     )
     seconds["total"] = time.perf_counter() - t0
