@@ -59,7 +59,15 @@ def check_and_report(args):
     """Shared by ``check`` and ``demo``: read inputs, run the check, write the report."""
     from floorfit.analysis.check import run_check
     from floorfit.errors import InputError
-    from floorfit.plan.site import Site, apply_height_ranges, parse_station_flag, read_site, stations_from_drawing
+    from floorfit.plan.site import (
+        DOOR_OPEN_NOTE,
+        Site,
+        apply_height_ranges,
+        close_doors,
+        parse_station_flag,
+        read_site,
+        stations_from_drawing,
+    )
     from floorfit.report import Progress, write_report
     from floorfit.vehicles.loading import split_vehicle_file
 
@@ -74,7 +82,8 @@ def check_and_report(args):
     apply_cache_option(args)
     progress = Progress(quiet=args.quiet)
     progress.stage("reading the drawing")
-    plan = apply_height_ranges(load_plan_from_args(args, roles=site.roles), site.heights)
+    plan = close_doors(apply_height_ranges(load_plan_from_args(args, roles=site.roles), site.heights),
+                       site.closed_doors)
     stations = list(site.stations)
     if site.station_layer:
         stations += stations_from_drawing(args.plan, site.station_layer, plan.metres_per_unit)
@@ -94,6 +103,8 @@ def check_and_report(args):
         tc = articulated_check(plan, train, stations, site, reachable=result.reachable,
                                progress=progress.stage, floor=result.turnability.get("fits"))
         merge_into_result(result, tc)
+    if isinstance(plan.model, dict) and plan.model.get("format") == "ifc":
+        result.notes.insert(0, DOOR_OPEN_NOTE)
     progress.done()
     project = dict(site.project)
     if getattr(args, "revision", None):

@@ -39,6 +39,9 @@ Site file (TOML, metres and degrees, drawing frame)::
     max_direction_changes = 2       # forward/reverse changes a drive between two stations may use
                                     # (default 2: one three-point turn); more is a `maneuver` finding
 
+    [doors]                         # doors are passable with the leaf open, except:
+    closed = ["D-12", "2GhxCR$0b0"]  # door names, tags or element ids (IFC GlobalId, DXF handle)
+
     [traffic]                       # fleet traffic: where two vehicles can pass (omit: not checked)
     vehicles = ["tug.toml"]         # vehicle files the checked vehicle meets (relative to this file;
                                     # default: another vehicle like the checked one)
@@ -62,7 +65,7 @@ from floorfit.tomlcheck import check_keys, get_bool, get_number, get_string, rea
 __all__ = ["Site", "read_site", "parse_station_flag", "apply_height_ranges", "CLEARANCE_REFERENCES",
            "DEFAULT_PERSON_WIDTH_M", "PROJECT_KEYS", "Traffic",
            "DEFAULT_HEADING_TOLERANCE_DEG", "stations_from_drawing", "DEFAULT_MAX_DIRECTION_CHANGES",
-           "MAX_DIRECTION_CHANGES_LIMIT", "check_direction_changes"]
+           "MAX_DIRECTION_CHANGES_LIMIT", "check_direction_changes", "close_doors", "DOOR_OPEN_NOTE"]
 
 #: Width of floor a person needs to walk through, metres (common practice: shoulder width
 #: of an adult is about 0.45–0.5 m).
@@ -84,7 +87,11 @@ CLEARANCE_REFERENCES = {
 DEFAULT_CLEARANCE = "b56.5"
 
 _TOP = ("station_layer", "stations", "clearance", "analysis", "layers", "blocks", "heights", "report", "project",
-        "traffic", "motion")
+        "traffic", "motion", "doors")
+_DOORS = ("closed",)
+#: The report note for plans whose doors come from a building model.
+DOOR_OPEN_NOTE = ("doors are taken as passable with the leaf open (the leaf and its swing are not obstacles); "
+                  "doors named in the site file's [doors] closed are walls")
 _MOTION = ("max_direction_changes",)
 _REPORT = ("routes",)
 _STATION = ("x", "y", "heading", "heading_tolerance")
@@ -135,6 +142,8 @@ class Site:
     traffic: Traffic | None = None                             # [traffic]; None: fleet traffic not checked
     #: [motion] max_direction_changes: the manoeuvre budget of differential and car-like vehicles
     max_direction_changes: int = DEFAULT_MAX_DIRECTION_CHANGES
+    #: [doors] closed: doors (name, tag or element id) that are closed: walls across the opening
+    closed_doors: tuple[str, ...] = ()
 
 
 def _check_name(name: str, path: str | None, where: str, error=SiteError) -> str:
@@ -168,7 +177,19 @@ def read_site(path: str | Path) -> Site:
                                      default=DEFAULT_PERSON_WIDTH_M, minimum=0.1, maximum=3.0)
     site.envelope = _read_envelope(analysis.get("envelope", "auto"), src)
     site.max_direction_changes = _read_motion(data.get("motion", {}), src)
+    site.closed_doors = _read_doors(data.get("doors", {}), src)
     return site
+
+
+def _read_doors(table: Any, src: str) -> tuple[str, ...]:
+    """The [doors] table: ``closed = [names]`` (door names, tags or element ids)."""
+    if not isinstance(table, dict):
+        raise SiteError("[doors] must be a table", src, "doors")
+    check_keys(table, _DOORS, src, "doors.", SiteError)
+    names = table.get("closed", [])
+    if not isinstance(names, list) or not all(isinstance(n, str) and n.strip() for n in names):
+        raise SiteError(f"expected a list of door names, got {names!r}", src, "doors.closed")
+    return tuple(n.strip() for n in names)
 
 
 def _read_stations(data: dict, site: Site, src: str) -> None:
@@ -419,3 +440,75 @@ def stations_from_drawing(plan_path: str | Path, layer: str, metres_per_unit: fl
     if not out:
         raise SiteError(f"no POINT or INSERT found on station layer '{layer}'", str(plan_path), "station_layer")
     return out
+
+
+def _closing_line(plan, door):
+    """A line across a doorway from jamb to jamb (local frame), or None when no jambs are found:
+    the direction through the door's centre whose free stretch between obstacles standing on the
+    floor is closest to the door's width."""
+    import numpy as np
+    import shapely
+
+    centre = np.array([door.x, door.y])
+    reach = 0.75 * door.width_m + 0.3
+    near = [g for g, h in zip([*plan.walls, *plan.solids], [*plan.wall_heights, *plan.solid_heights])
+            if h[0] <= 0.0 and g.distance(shapely.Point(centre)) < reach]
+    if not near:
+        return None
+    blockers = shapely.union_all(near)
+    best = None
+    for deg in range(0, 180, 5):
+        u = np.array([math.cos(math.radians(deg)), math.sin(math.radians(deg))])
+        line = shapely.LineString([centre - reach * u, centre + reach * u])
+        for part in shapely.get_parts(shapely.difference(line, blockers)):
+            if part.distance(shapely.Point(centre)) < 0.02 and part.length < 2 * reach - 1e-6:
+                score = abs(part.length - door.width_m)
+                if best is None or score < best[0]:
+                    a, b = np.asarray(part.coords)[[0, -1]]
+                    d = (b - a) / max(part.length, 1e-9)
+                    best = (score, shapely.LineString([a - 0.05 * d, b + 0.05 * d]))
+    return None if best is None else best[1]
+
+
+def close_doors(plan, names) -> Any:
+    """A copy of ``plan`` with the named doors closed: a full-height wall across each opening.
+
+    A door matches by its name (label), or its element id (IFC GlobalId, DXF handle). Names
+    that match no door are reported as an import note listing the doors there are.
+    """
+    from dataclasses import replace
+
+    import numpy as np
+
+    from floorfit.plan.model import FULL_HEIGHT, ImportIssue
+
+    names = [n for n in names or ()]
+    if not names:
+        return plan
+    closed, lines, issues = [], [], list(plan.issues)
+    aliases = (plan.model or {}).get("door_names", {}) if isinstance(plan.model, dict) else {}
+    for d in plan.doors:
+        keys = {k for k in (d.label, d.handle, *aliases.get(d.handle, ())) if k}
+        if keys & set(names):
+            line = _closing_line(plan, d)
+            if line is None:
+                issues.append(ImportIssue("doors", f"door {d.label or d.handle}: no jambs found around it, "
+                                                   f"so it cannot be closed", d.handle, d.layer))
+                continue
+            closed.append(d.label or d.handle)
+            lines.append(line)
+    unknown = [n for n in names if not any(n in (d.label, d.handle, *aliases.get(d.handle, ())) for d in plan.doors)]
+    if unknown:
+        known = ", ".join(sorted({d.label or d.handle or "?" for d in plan.doors})[:20]) or "none"
+        issues.append(ImportIssue("doors", f"closed door(s) not in the plan: {', '.join(unknown)}; "
+                                           f"the doors are: {known}"))
+    if closed:
+        issues.append(ImportIssue("doors", f"closed (site file): {', '.join(closed)}"))
+    keep = [d for d in plan.doors if (d.label or d.handle) not in closed]
+    extra = {name: np.concatenate([np.asarray(getattr(plan, name), dtype=object), [fill] * len(lines)])
+             for name, fill in (("wall_ids", None), ("wall_handles", ""), ("wall_types", ""))
+             if getattr(plan, name, None) is not None}
+    return replace(plan, walls=[*plan.walls, *lines],
+                   wall_heights=np.vstack([plan.wall_heights, np.tile(FULL_HEIGHT, (len(lines), 1))]),
+                   wall_layers=np.concatenate([plan.wall_layers, ["closed door"] * len(lines)]),
+                   doors=keep, issues=issues, **extra)

@@ -17,7 +17,7 @@ import shapely
 
 from floorfit.plan.model import Doorway, ImportIssue
 
-__all__ = ["MeasuredDoor", "measure_doors", "WIDTH_WARNING_M"]
+__all__ = ["MeasuredDoor", "measure_doors", "WIDTH_WARNING_M", "door_name", "door_aliases"]
 
 #: A door whose measured clear width and OverallWidth differ by more than this gets a warning.
 WIDTH_WARNING_M = 0.05
@@ -57,12 +57,32 @@ class MeasuredDoor:
         return None
 
 
-def _door_name(door) -> str:
-    for attr in ("Name", "Tag"):
-        v = getattr(door, attr, None)
-        if v and str(v).strip():
-            return str(v).strip()
-    return ""
+#: A door name longer than this, or made of ``Family:Type:Id`` parts, is shortened.
+_SHORT_NAME = 24
+
+
+def _short(text) -> str:
+    return str(text).strip() if text and str(text).strip() else ""
+
+
+def door_name(door) -> str:
+    """A short name for a door: its Name when that is short (``D-12``, ``Tür-014``), else its
+    Tag (Revit writes ``M_Single-Flush:0762 x 2032mm:…:150173`` as Name and ``150173`` as Tag),
+    else the last part of the Name."""
+    name, tag = _short(getattr(door, "Name", None)), _short(getattr(door, "Tag", None))
+    if name and ":" not in name and len(name) <= _SHORT_NAME:
+        return name
+    if tag and len(tag) <= _SHORT_NAME:
+        return tag
+    if name:
+        return name.rsplit(":", 1)[-1].strip()[:_SHORT_NAME] or name[:_SHORT_NAME]
+    return tag[:_SHORT_NAME]
+
+
+def door_aliases(door) -> list[str]:
+    """Every name a site file may use for a door: short name, Name, Tag, GlobalId."""
+    out = [door_name(door), _short(getattr(door, "Name", None)), _short(getattr(door, "Tag", None)), door.GlobalId]
+    return list(dict.fromkeys(a for a in out if a))
 
 
 def _axes(door, verts: np.ndarray) -> list[np.ndarray]:
@@ -165,7 +185,7 @@ def measure_doors(doors, solids, solid_h, walls, wall_h, floor_z: float) -> list
         h = min(_MEASURE_HEIGHT_M, 0.5 * float(z.max() - max(z.min(), 0.0)))
         width, centre, u, body = _measure_one(door, mesh, obstacles, h)
         ow = getattr(door, "OverallWidth", None)
-        out.append(MeasuredDoor(door.GlobalId, _door_name(door), float(centre[0]), float(centre[1]),
+        out.append(MeasuredDoor(door.GlobalId, door_name(door), float(centre[0]), float(centre[1]),
                                 (float(u[0]), float(u[1])), width, width is not None,
                                 None if ow is None else float(ow), body))
     return out
