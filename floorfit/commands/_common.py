@@ -175,9 +175,12 @@ def add_cache_argument(p) -> None:
 
 
 def apply_cache_option(args) -> str | None:
-    """Turn the slice cache on or off for this run (see :mod:`floorfit.cspace.slicecache`); its folder or None."""
+    """Turn the slice cache and the IFC import cache on or off for this run (see
+    :mod:`floorfit.cspace.slicecache`, :mod:`floorfit.plan.ifc.cache`); the folder or None."""
     from floorfit.cspace.slicecache import default_cache_dir, use_cache
+    from floorfit.plan.ifc.cache import use_import_cache
 
     folder = None if getattr(args, "no_cache", False) else default_cache_dir()
     use_cache(folder)
+    use_import_cache(None if folder is None else folder / "ifc")
     return None if folder is None else str(folder)

@@ -11,8 +11,11 @@ height), :mod:`.doors` (clear widths), :mod:`.importer` (the pipeline), :mod:`.r
 
 from __future__ import annotations
 
+from dataclasses import replace
+from pathlib import Path
+
 from floorfit.plan.ifc.importer import DEFAULT_BAND_TOP_M, OVERHEAD_ALLOWANCE_M, IfcImport, import_model
-from floorfit.plan.model import Plan
+from floorfit.plan.model import ImportIssue, Plan
 
 __all__ = ["load_ifc", "inspect_ifc", "is_ifc_path", "band_for_height", "import_model", "IfcImport",
            "DEFAULT_BAND_TOP_M", "OVERHEAD_ALLOWANCE_M"]
@@ -46,6 +49,10 @@ def load_ifc(path, *, storey: str | float | None = None, band_top_m: float | Non
     workers : int, optional
         Processes for meshing (default: the cores available).
 
+    When :func:`floorfit.plan.ifc.cache.use_import_cache` turned the import cache on (the
+    commands do, unless ``--no-cache`` or ``FLOORFIT_CACHE=off``), a storey imported before
+    with the same file, storey and band is read from it; an import note says so.
+
     Returns
     -------
     Plan
@@ -61,7 +68,20 @@ def load_ifc(path, *, storey: str | float | None = None, band_top_m: float | Non
     InputError
         a storey that does not exist (the message lists the storeys).
     """
-    return import_model(path, storey=storey, band_top_m=band_top_m, workers=workers).plan
+    from floorfit.plan.ifc.cache import cache_key, cached_plan, import_cache_dir, store_plan
+
+    folder = import_cache_dir()
+    key = cache_key(path, storey, band_top_m) if folder is not None and Path(path).is_file() else None
+    if key is not None:
+        plan = cached_plan(key)
+        if plan is not None:
+            note = ImportIssue("cache", f"storey read from the import cache in {folder} (same file, storey and "
+                                        f"band); --no-cache or FLOORFIT_CACHE=off imports it again")
+            return replace(plan, source=str(path), issues=[*plan.issues, note])
+    plan = import_model(path, storey=storey, band_top_m=band_top_m, workers=workers).plan
+    if key is not None and store_plan(key, plan):
+        plan.issues.append(ImportIssue("cache", f"storey imported and stored in the import cache in {folder}"))
+    return plan
 
 
 def inspect_ifc(path, *, storey: str | float | None = None, band_top_m: float | None = None) -> dict:
