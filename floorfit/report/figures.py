@@ -36,7 +36,7 @@ from floorfit.report.geometry import parts
 from floorfit.report.kinds import kind_style, numbered_findings, plain_text
 
 __all__ = [
-    "FigureImage", "TURN_CLASSES", "plan_figure", "turnability_figure", "heading_count_figure",
+    "FigureImage", "TURN_CLASSES", "shown_turn_classes", "plan_figure", "turnability_figure", "heading_count_figure",
     "routes_figure", "vehicle_figure", "render_figure", "choose_format", "draw_report_figures",
 ]
 
@@ -49,6 +49,15 @@ TURN_CLASSES: tuple[tuple[str | None, str, str], ...] = (
     ("turns_around", "can turn around", "#86bfdf"),
     ("rotates", "can spin in place", "#27608f"),
 )
+
+
+
+def shown_turn_classes(result: Any) -> tuple[tuple[str | None, str, str], ...]:
+    """The classes of :data:`TURN_CLASSES` a legend shows: "can spin in place" only when the check
+    has a spin area for the vehicle (a car-steered vehicle never spins, however much room)."""
+    spins = isinstance((getattr(result, "turnability", None) or {}).get("rotates"), shapely.Geometry)
+    return tuple(c for c in TURN_CLASSES if c[0] != "rotates" or spins)
+
 
 #: Free-heading counts: one hue, light (few) to dark (all), like the turning map; the
 #: lightest tenth of the ramp is cut off so that "one heading" never looks like white "none".

@@ -16,7 +16,7 @@ from typing import Any
 
 from floorfit import __version__
 from floorfit.report.cautions import CAUTIONS, CLEARANCE_REFERENCES, tolerance_statement
-from floorfit.report.figures import TURN_CLASSES, FigureImage
+from floorfit.report.figures import FigureImage, shown_turn_classes
 from floorfit.report.kinds import KIND_STYLES, kind_style, numbered_findings
 from floorfit.report.tables import report_kinds, station_names, unreachable_pairs
 from floorfit.report.traffic_html import traffic_section
@@ -289,9 +289,9 @@ def _figure_body(intro: str, images: Sequence[FigureImage | None], missing: str,
     return f"{_KEEP}<p>{intro}</p>{extra}{first}</div>{''.join(shown[1:])}"
 
 
-def _turn_legend() -> str:
+def _turn_legend(result: Any) -> str:
     items = "".join(f'<span style="margin-right:1.1em"><span class="swatch" style="background:{c}">'
-                    f"</span>{_e(t)}</span>" for _k, t, c in TURN_CLASSES)
+                    f"</span>{_e(t)}</span>" for _k, t, c in shown_turn_classes(result))
     return f'<p class="legend-line">{items}</p>'
 
 
@@ -422,7 +422,7 @@ def render_html(result: Any, images: Iterable[FigureImage], *, sheets: Sequence[
         "Where the vehicle's reference point can be, coloured by how freely it can change heading "
         "there. Darker means more freedom; white means the vehicle cannot be there at any heading.",
         [by_key.get("fig-turn"), by_key.get("fig-headings")],
-        "The check did not produce a turning map.", _turn_legend()))
+        "The check did not produce a turning map.", _turn_legend(result)))
     routes_section = None
     if routes:
         routes_section = ("routes", "Swept paths", _figure_body(

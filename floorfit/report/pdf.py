@@ -45,6 +45,7 @@ from floorfit.report.figures import (
     _draw_obstacles,
     _draw_stations,
     _view_box,
+    shown_turn_classes,
 )
 from floorfit.report.kinds import kind_style, plain_text
 from floorfit.report.project import ProjectInfo, TitleBlock, source_datetime, title_block
@@ -479,7 +480,9 @@ def _turn_map_page(result: Any, layout: PageLayout, tb: TitleBlock, page: int, p
         polys = [p for p in parts(turns) if p.geom_type == "Polygon"]
         if polys:
             klass[fill_polygons(polys, float(hc["x0"]), float(hc["y0"]), cell, nx, ny) & (counts > 0)] = 2
-    klass[(counts >= n) & (counts > 0)] = 3
+    classes = shown_turn_classes(result)
+    if any(k == "rotates" for k, _t, _c in classes):       # only a base that turns on the spot spins
+        klass[(counts >= n) & (counts > 0)] = 3
     colours = np.array([mcolors.to_rgb(c) for _k, _t, c in TURN_CLASSES])
     rgb = colours[klass]
     box = _view_box(result)
@@ -499,7 +502,7 @@ def _turn_map_page(result: Any, layout: PageLayout, tb: TitleBlock, page: int, p
     lx = layout.width - m - 64
     y = layout.content_top
     y = _heading(ax, lx, y, "legend", 64)
-    for _k, text, colour in TURN_CLASSES:
+    for _k, text, colour in classes:
         ax.add_patch(Rectangle((lx, y - 3.0), 4, 3, facecolor=colour, edgecolor=_RULE, linewidth=0.4))
         ax.text(lx + 6, y - 0.2, text, fontsize=7, va="top", color=_INK)
         y -= 4.6

@@ -33,6 +33,7 @@ import shapely.affinity
 import shapely.ops
 
 from floorfit.analysis.passages import min_width
+from floorfit.analysis.turnability import NARROW_RANGE_DEG, format_heading_ranges
 from floorfit.report.bounding_entities import Bound, _doorway_bound, _Obstacles
 from floorfit.report.kinds import numbered_findings, plain_text
 from floorfit.report.remedies import Remedy, RemedyContext, compute_remedy
@@ -307,8 +308,21 @@ def _numbers(f: Any) -> list[tuple[str, str]]:
     if f.direction_changes is not None:
         out.append(("direction changes", str(f.direction_changes)))
     if f.heading_ranges_deg:
-        out.append(("headings it fits at", ", ".join(f"{a:g}° to {b:g}°" for a, b in f.heading_ranges_deg)))
+        out.append(("headings it fits at", headings_text(f.heading_ranges_deg)))
     return out
+
+
+def headings_text(ranges: Any) -> str:
+    """Heading ranges in the findings' own words ("-90° (aligned only)"): a range narrower than a
+    wall direction's guard cell is that one heading (its edges are an artefact of the slicing)."""
+    shown = []
+    for a, b in ranges:
+        a, b = float(a), float(b)
+        if (b - a) % 360.0 < NARROW_RANGE_DEG:
+            h = round((0.5 * (a + a + (b - a) % 360.0) + 180.0) % 360.0 - 180.0, 2)
+            a = b = h
+        shown.append((a, b))
+    return format_heading_ranges(shown)
 
 
 def _focus(sheet: Sheet, result: Any) -> tuple[float, float, float, float]:
