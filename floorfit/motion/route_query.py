@@ -30,12 +30,12 @@ import shapely
 import shapely.ops
 from shapely.geometry import Point, Polygon
 
-from floorfit.cspace.cellpath import path_in_polygon, point_inside
 from floorfit.cspace.collision import PoseChecker
 from floorfit.cspace.headings import arc_deg, wrap_deg
 from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.slices import SliceSet, build_slices, choose_headings
 from floorfit.errors import InputError
+from floorfit.motion.cell_mesh import MESHES
 from floorfit.motion.drivable import (
     NOT_FOUND,
     DriveLimits,
@@ -43,8 +43,8 @@ from floorfit.motion.drivable import (
     plan_differential,
     segment_dicts,
 )
-from floorfit.motion.drivable_car import plan_car
-from floorfit.motion.slice_checks import ExactSliceCheck, chord_error_m
+from floorfit.motion.drivable_car import plan_car, reference_grid
+from floorfit.motion.slice_checks import ExactSliceCheck, SliceMotionCheck, chord_error_m
 from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import Vehicle
 
@@ -161,8 +161,7 @@ class _Clearance:
         if self.c <= 0:
             return None
         if key not in self._cache:
-            e = geom.buffer(-self.c * fraction) if geom.area > 0 else Polygon()
-            self._cache[key] = None if e.is_empty else e
+            self._cache[key] = MESHES.eroded(geom, self.c * fraction)
         return self._cache[key]
 
     def point(self, region, near, heading_deg: float | None = None, poly=None) -> np.ndarray:
@@ -176,7 +175,7 @@ class _Clearance:
                 q = self._on_heading_line(level, near, heading_deg, poly) if level is not None else None
                 if q is not None:
                     return q
-        return point_inside(e if e is not None else region, near)
+        return MESHES.point_inside(e if e is not None else region, near)
 
     @staticmethod
     def _on_heading_line(target, near, heading_deg, poly):
@@ -201,19 +200,19 @@ class _Clearance:
         """Waypoints from a to b inside ``poly``, through its eroded copy where possible."""
         e = self.eroded(key, poly)
         if e is not None:
-            a2, b2 = point_inside(e, a), point_inside(e, b)
+            a2, b2 = MESHES.point_inside(e, a), MESHES.point_inside(e, b)
             ends_ok = all(np.allclose(p, q) or poly.covers(shapely.LineString([p, q])) for p, q in ((a, a2), (b2, b)))
             part = e
             if ends_ok and not isinstance(e, Polygon):
                 parts = [g for g in shapely.get_parts(e) if g.covers(Point(a2))]
                 part = parts[0] if parts else None
             if ends_ok and part is not None:
-                inner = path_in_polygon(part, a2, b2)
+                inner = MESHES.path(part, a2, b2)
                 if inner is not None:
                     pts = [np.asarray(a, dtype=float)] + list(inner) + [np.asarray(b, dtype=float)]
                     keep = [pts[0]] + [p for prev, p in pairwise(pts) if not np.allclose(prev, p, atol=1e-12)]
                     return np.asarray(keep)
-        return path_in_polygon(poly, a, b)
+        return MESHES.path(poly, a, b)
 
 
 def route_in_slices(slices: SliceSet, G: nx.Graph, start_local, goal_local, *,
@@ -464,6 +463,18 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
 VIRTUAL_CAR_RADIUS_WIDTHS = 1.5
 
 
+def _car_tools(slices, radius_m: float, limits: DriveLimits, check: ExactSliceCheck):
+    """The sampled check and 2-D heuristic grid of a car of radius ``radius_m`` on these slices, as
+    :func:`floorfit.motion.drivable_car.plan_car` would build them, kept with the shared exact check
+    (the station pairs of one check then build them once)."""
+    key = ("car tools", radius_m, limits.check_step_m, limits.check_step_deg, limits.path_step_m)
+    if key not in check.shared:
+        sampled = SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg,
+                                   extra_margin_m=chord_error_m(radius_m, limits.path_step_m))
+        check.shared[key] = (sampled, reference_grid(slices, max(0.1, radius_m / 4.0)))
+    return check.shared[key]
+
+
 def _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline):
     """A differential path with direction changes may do better by copying a car's path: hybrid A*
     for a car of a small turning radius (within ``first_search_expansions``), its arcs made into chords and
@@ -473,7 +484,6 @@ def _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline):
     from dataclasses import replace
 
     from floorfit.motion.drivable import FOUND, DrivePlan, finish_plan
-    from floorfit.motion.drivable_car import plan_car
     from floorfit.motion.subdivision import arcs_as_turns, differential_steer, shortcut_differential
 
     budget = None if deadline is None else deadline - time.perf_counter()
@@ -484,7 +494,8 @@ def _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline):
                   min_turn_radius_m=max(0.5, VIRTUAL_CAR_RADIUS_WIDTHS * veh.width_m))
     search = replace(limits, time_limit_s=budget,
                      max_expansions=min(limits.max_expansions, limits.first_search_expansions))
-    cp = plan_car(slices, car, s_loc, g_loc, limits=search, exact=check)
+    sampled, grid = _car_tools(slices, car.min_turn_radius_m, limits, check)
+    cp = plan_car(slices, car, s_loc, g_loc, limits=search, exact=check, check=sampled, grid=grid)
     if not cp.found:
         return dp
     segs = arcs_as_turns(cp.segments, free=check.free)

@@ -231,6 +231,9 @@ class ExactSliceCheck:
         self._starts = cells.headings - cells.below
         self._prepared: set[int] = set()
         self.checks = 0
+        #: structures derived from these slices that the searches sharing this check may share too
+        #: (for example the sampled check and 2-D heuristic grid of a car of one turning radius)
+        self.shared: dict = {}
 
     def _cell_of(self, h_deg) -> np.ndarray:
         s0 = self._starts[0]
