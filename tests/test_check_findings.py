@@ -118,6 +118,27 @@ def test_corner_too_tight_by_closed_form_is_blocked_as_a_turn():
     assert r.reachable["W"]["N"] and [f for f in r.findings if f.kind == "blocked"] == []
 
 
+def test_corner_of_a_corridor_between_rooms_is_blocked_as_a_turn_at_the_corner():
+    # Two 4 × 4 m rooms joined by a 0.95 m corridor with one right-angle corner: a 2.0 × 0.6 m robot
+    # (0.70 m with margin) drives the corridor's legs straight but cannot make the corner. The floor is
+    # wide enough all along, so the block is at the corner, not wherever the raster first joins the
+    # rooms: the middle of the corner (the centre of the widest circle there), at the corridor's width.
+    w = 0.95
+    floor = shapely.union_all([shapely.box(0, 0, 4, 4), shapely.box(4, 1.5, 8 + w, 1.5 + w),
+                               shapely.box(8, 1.5, 8 + w, 6), shapely.box(6.5, 6, 10.5, 10)])
+    plan = Plan.from_geometries(walls=[floor.exterior])
+    veh = ff.rectangle_vehicle(2.0, 0.6, margin=0.05, mode="differential")
+    r = run_check(plan, veh, [Station("A", 2.0, 2.0), Station("B", 8.5, 8.0)], site=NO_CLEARANCE)
+    assert not r.reachable["A"]["B"]
+    b = [f for f in r.findings if f.kind == "blocked"]
+    assert len(b) == 1 and b[0].cause == "turn" and b[0].cuts_off == ["B"]
+    radius = w * math.sqrt(2) / (1 + math.sqrt(2))      # touches both outer walls and the inner corner
+    cx, cy = 8 + w - radius, 1.5 + radius
+    assert math.hypot(b[0].x - cx, b[0].y - cy) <= r.settings["location_tolerance_m"], (b[0].x, b[0].y)
+    assert b[0].clear_width_m == pytest.approx(w, abs=0.01)
+    assert "cannot make the turn" in b[0].summary
+
+
 def test_ample_space_has_no_findings():
     plan = Plan.from_geometries(walls=[shapely.box(0, 0, 20, 12)], solids=[shapely.box(8, 4, 12, 8)])
     veh = ff.rectangle_vehicle(0.9, 0.62, margin=0.05)

@@ -83,8 +83,6 @@ def _corner_floor(extra=None):
 CORNER_STATIONS = [Station("A", 3.0, 3.0, None, 5.0), Station("B", 10.5, 10.5, None, 5.0)]
 
 
-@pytest.mark.xfail(strict=True, reason="the engine places this turn block in room A, not at the corridor's "
-                   "corner (analysis.places.locate_join), so the remedy's circle lands there too")
 def test_turn_block_opened_by_the_stated_circle_is_gone():
     result = run_check(_corner_floor(), LONG, CORNER_STATIONS, site=SITE)
     f = _kinds(result, "blocked", "turn")

@@ -2,7 +2,9 @@
 
 Every join between the vehicle's places that still leaves at least a person's width is a
 place where a person passes and the vehicle does not. Its clear width is measured exactly at
-the narrowest point nearby (:func:`floorfit.analysis.passages.narrowest_width_near`). If it is
+the narrowest point nearby (:func:`floorfit.analysis.passages.narrowest_width_near`); a join
+whose floor is wide enough all the way is placed where the vehicle's free space breaks
+(:func:`floorfit.analysis.places.locate_break`, e.g. a corridor corner) and measured there. If it is
 at least what the vehicle needs to drive straight through, the cause is the turn (a corner or
 approach it cannot make), or the height when an overhead obstacle the vehicle meets is near.
 Findings are in the drawing frame; measurements in metres.
@@ -19,7 +21,7 @@ from floorfit.analysis.envelope import outside_envelope
 from floorfit.analysis.findings import Finding
 from floorfit.analysis.naming import place_name
 from floorfit.analysis.passages import narrowest_width_near
-from floorfit.analysis.places import locate_join, side_geometry, sides_of_events
+from floorfit.analysis.places import locate_break, locate_join, side_geometry, sides_of_events
 
 __all__ = ["station_fit_findings", "pinch_findings", "station_pair_cuts"]
 
@@ -54,6 +56,25 @@ def _blocked_summary(ctx: CheckContext, cause: str, w: float, needed: float, cle
             f"but the vehicle cannot make the turn here")
 
 
+def _join_point(ctx: CheckContext, field, ev, sides, straight: float):
+    """``(x, y, measure_at)``: where a join is reported (local frame), and where its clear width is
+    measured when that is not simply the narrowest floor near (x, y) (``None``).
+
+    Sides that overlap in the plane, or on the raster, have no narrow floor between them: the
+    floor is measured at the raster join cell. A join whose floor is at least ``straight`` wide all
+    the way (its level less the raster's error, half a cell diagonal, doubled) is no narrow
+    passage: the raster join cell can be anywhere along that floor, so the join is placed where the
+    vehicle's free space breaks (:func:`locate_break`) and measured there.
+    """
+    lx, ly, overlap = locate_join(field, ev, sides)
+    if ev.overlap or overlap:
+        return lx, ly, field.centre_of(ev.iy, ev.ix)
+    if 2.0 * ev.level - np.sqrt(2.0) * field.cell < straight:
+        return lx, ly, None
+    at = locate_break(field, sides)
+    return (at[0], at[1], at) if at is not None else (lx, ly, None)
+
+
 def pinch_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, places: Places,
                    needed: float) -> tuple[list[Finding], nx.Graph]:
     """Blocked findings at the joins between places, and the tree of joins (edges carry ``finding``)."""
@@ -68,12 +89,11 @@ def pinch_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, pla
     for ev, (sa, sb) in zip(places.events, sides_of_events(places.events, list(seeds))):
         ga = side_geometry(slices, comps, sa)
         gb = side_geometry(slices, comps, sb)
-        lx, ly, overlap = locate_join(field, ev, (ga, gb))
-        if ev.overlap or overlap:
+        lx, ly, measure_at = _join_point(ctx, field, ev, (ga, gb), needed + slices.tolerance_m)
+        if measure_at is not None:
             # no narrow floor between the sides (a turn or an overhead block): the floor there is
-            # at least 2 × the join level wide; measure it at the raster join cell
-            jx, jy = field.centre_of(ev.iy, ev.ix)
-            w, _, _, q1, q2 = narrowest_width_near(ctx.index, jx, jy, radius=max(3 * cell, 0.15))
+            # at least 2 × the join level wide; measure it where _join_point says
+            w, _, _, q1, q2 = narrowest_width_near(ctx.index, *measure_at, radius=max(3 * cell, 0.15))
             px, py = lx, ly
         else:
             w, px, py, q1, q2 = narrowest_width_near(ctx.index, lx, ly, radius=max(3 * cell, 0.15))

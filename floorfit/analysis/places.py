@@ -21,7 +21,8 @@ from floorfit.analysis.context import CheckContext, Places
 from floorfit.cspace.roadmap import station_nodes
 from floorfit.cspace.slices import SliceSet
 
-__all__ = ["station_regions", "find_places", "locate_join", "side_geometry", "sides_of_events", "plain_regions"]
+__all__ = ["station_regions", "find_places", "locate_join", "locate_break", "side_geometry", "sides_of_events",
+           "plain_regions"]
 
 
 def station_regions(ctx: CheckContext, slices: SliceSet, G: nx.Graph):
@@ -120,6 +121,59 @@ def locate_join(field, ev, union_sides) -> tuple[float, float, bool]:
             pa, pb = shapely.ops.nearest_points(a_side, b_side)
             return (pa.x + pb.x) / 2.0, (pa.y + pb.y) / 2.0, False
     return x, y, False
+
+
+def locate_break(field, union_sides, max_pairs: int = 12) -> tuple[float, float] | None:
+    """Local (x, y) where the vehicle's free space breaks between two sides that are apart in the plane.
+
+    For a join whose floor is wide enough all the way (a corner the vehicle cannot make), the
+    raster join cell can lie anywhere along that floor. The break is where the two sides' free
+    regions come closest over open floor: the nearest pair of their pieces whose connecting
+    segment crosses no obstacle of the raster, moved from the segment's middle uphill in clearance
+    (no farther than the segment is long) to the middle of a corner. ``None`` when the sides touch
+    or every near pair lies across an obstacle.
+    """
+    a_side, b_side = union_sides
+    if a_side is None or b_side is None or a_side.is_empty or b_side.is_empty:
+        return None
+    parts_a, parts_b = shapely.get_parts(a_side), shapely.get_parts(b_side)
+    d = shapely.distance(parts_a[:, None], parts_b[None, :])
+    for flat in np.argsort(d, axis=None)[:max_pairs]:
+        i, j = np.unravel_index(flat, d.shape)
+        if d[i, j] <= 0:
+            continue
+        pa, pb = shapely.ops.nearest_points(parts_a[i], parts_b[j])
+        if not _open_between(field, (pa.x, pa.y), (pb.x, pb.y)):
+            continue
+        mx, my = (pa.x + pb.x) / 2.0, (pa.y + pb.y) / 2.0
+        return _climb(field, mx, my, max(float(d[i, j]), 3 * field.cell))
+    return None
+
+
+def _open_between(field, p, q) -> bool:
+    """True when no obstacle cell of the raster lies on the segment p–q."""
+    n = max(2, int(np.ceil(np.hypot(q[0] - p[0], q[1] - p[1]) / (field.cell / 2.0))) + 1)
+    t = np.linspace(0.0, 1.0, n)
+    iy, ix = field.index_of(p[0] + t * (q[0] - p[0]), p[1] + t * (q[1] - p[1]))
+    return not field.blocked[iy, ix].any()
+
+
+def _climb(field, x: float, y: float, radius: float) -> tuple[float, float]:
+    """Centre of the cell reached from (x, y) by steepest ascent of the clearance, within ``radius``."""
+    iy, ix = (int(v) for v in field.index_of(x, y))
+    ny, nx = field.shape
+    for _ in range(int(4 * radius / field.cell) + 4):
+        best = (field.dist[iy, ix], iy, ix)
+        for jy in range(max(iy - 1, 0), min(iy + 2, ny)):
+            for jx in range(max(ix - 1, 0), min(ix + 2, nx)):
+                cx, cy = field.centre_of(jy, jx)
+                if field.dist[jy, jx] > best[0] + 1e-9 and np.hypot(cx - x, cy - y) <= radius:
+                    best = (field.dist[jy, jx], jy, jx)
+        if (best[1], best[2]) == (iy, ix):
+            break
+        iy, ix = best[1], best[2]
+    cx, cy = field.centre_of(iy, ix)
+    return float(cx), float(cy)
 
 
 def side_geometry(slices: SliceSet, comps, members, limit: int = 240):
