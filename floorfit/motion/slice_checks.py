@@ -288,13 +288,12 @@ class ExactSliceCheck:
         dh = seg.angle_deg
         # fractions where the heading crosses a cell boundary
         lo, hi = sorted((h0, h0 + dh))
-        bounds = []
-        for s0 in self._starts:
-            for m in range(math.floor((lo - s0) / 360.0), math.ceil((hi - s0) / 360.0) + 1):
-                b = s0 + 360.0 * m
-                if lo < b < hi:
-                    bounds.append((b - h0) / dh)
-        cuts = np.unique(np.concatenate([np.arange(n + 1) / n, np.asarray(bounds, dtype=float)]))
+        m_lo = np.floor((lo - self._starts) / 360.0)
+        m_hi = np.ceil((hi - self._starts) / 360.0)
+        m = m_lo[:, None] + np.arange(int((m_hi - m_lo).max()) + 1)[None, :]
+        b = self._starts[:, None] + 360.0 * m                  # every turn of every cell boundary
+        bounds = (b[(m <= m_hi[:, None]) & (lo < b) & (b < hi)] - h0) / dh
+        cuts = np.unique(np.concatenate([np.arange(n + 1) / n, bounds]))
         cuts = cuts[(cuts >= 0) & (cuts <= 1)]
         pts = poses_along(seg, cuts)
         k_of = self._cell_of(np.degrees(poses_along(seg, 0.5 * (cuts[:-1] + cuts[1:]))[:, 2]))
@@ -302,27 +301,28 @@ class ExactSliceCheck:
         samples = poses_along(seg, sample_t)
         sign = seg.steer * seg.radius_m
         x0, y0, hs = seg.start
-        cx, cy = x0 - sign * math.sin(hs), y0 + sign * math.cos(hs)
-        out = []
-        for i in range(len(cuts) - 1):
-            ta, tb = cuts[i], cuts[i + 1]
-            j = min(int(np.searchsorted(sample_t, ta, side="right")) - 1, n - 1)
-            t_s, t_e = sample_t[j], sample_t[j + 1]
-            pa, pb = samples[j, :2], samples[j + 1, :2]
-            ca = pa + (pb - pa) * (ta - t_s) / (t_e - t_s)      # chord points at the same fractions
-            cb = pa + (pb - pa) * (tb - t_s) / (t_e - t_s)
-            A, B = pts[i, :2], pts[i + 1, :2]
-            half = 0.5 * abs(math.radians(dh) * (tb - ta))
-            corners = [ca, cb, B, A]
-            if half >= 1e-9:      # the tangents at A and B meet at T, outside the arc
-                mid = 0.5 * (A + B)
-                v = mid - np.array([cx, cy])
-                norm = float(np.hypot(*v))
-                if norm > 0:
-                    corners.append(np.array([cx, cy]) + v / norm * (seg.radius_m / math.cos(half)))
-            # the convex hull contains the arc piece and the chord piece (a polygon, a line or a point)
-            geom = shapely.convex_hull(shapely.multipoints(np.asarray(corners)))
-            out.append((int(k_of[i]), geom))
+        centre = np.array([x0 - sign * math.sin(hs), y0 + sign * math.cos(hs)])
+        # all pieces at once, each value computed as the piece-by-piece formula computes it
+        ta, tb = cuts[:-1], cuts[1:]
+        j = np.minimum(np.searchsorted(sample_t, ta, side="right") - 1, n - 1)
+        t_s, t_e = sample_t[j], sample_t[j + 1]
+        pa, pb = samples[j, :2], samples[j + 1, :2]
+        ca = pa + (pb - pa) * (ta - t_s)[:, None] / (t_e - t_s)[:, None]    # chord points at the same fractions
+        cb = pa + (pb - pa) * (tb - t_s)[:, None] / (t_e - t_s)[:, None]
+        A, B = pts[:-1, :2], pts[1:, :2]
+        half = 0.5 * np.abs(math.radians(dh) * (tb - ta))
+        # the tangents at A and B meet at T, outside the arc
+        v = 0.5 * (A + B) - centre
+        norm = np.hypot(v[:, 0], v[:, 1])
+        tip = (half >= 1e-9) & (norm > 0)
+        reach = np.array([seg.radius_m / math.cos(h) for h in half])
+        T = centre + v / np.where(norm > 0, norm, 1.0)[:, None] * reach[:, None]
+        corners = np.stack([ca, cb, B, A, T], axis=1)                      # (pieces, 5, 2)
+        count = np.where(tip, 5, 4)
+        keep = np.arange(5)[None, :] < count[:, None]
+        # the convex hull contains the arc piece and the chord piece (a polygon, a line or a point)
+        geoms = shapely.convex_hull(shapely.multipoints(corners[keep], indices=np.repeat(np.arange(len(count)), count)))
+        out = list(zip(k_of.astype(int).tolist(), geoms))
         return out
 
     def segment_free(self, seg: Segment) -> bool:
