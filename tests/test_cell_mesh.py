@@ -59,3 +59,12 @@ def test_paths_and_points_match_the_plain_ones():
         if want is not None:
             assert np.array_equal(want, got)
         assert np.array_equal(point_inside(poly, a), meshes.point_inside(poly, a))
+
+
+def test_the_oldest_triangulations_go_beyond_the_triangle_limit():
+    rooms = [_room_with_racks(), box(0, 0, 5, 5).difference(box(2, 2, 3, 3))]
+    meshes = CellMeshes(max_triangles=1)
+    for poly in rooms + rooms:
+        want = path_in_polygon(poly, (0.5, 0.5), (4.5, 4.5))
+        assert np.array_equal(meshes.path(poly, (0.5, 0.5), (4.5, 4.5)), want)
+        assert len(meshes._meshes) == 1

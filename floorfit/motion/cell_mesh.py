@@ -79,11 +79,13 @@ def _shortcut(prepared, pts: np.ndarray) -> np.ndarray:
 
 
 class CellMeshes:
-    """Recently used polygons' triangulations (at most ``size``) and their eroded, inset and prepared
-    copies (at most ``4 · size`` of each)."""
+    """Recently used polygons' triangulations (at most ``size``, and at most ``max_triangles`` triangles
+    in all unless one polygon has more) and their eroded, inset and prepared copies (at most
+    ``4 · size`` of each)."""
 
-    def __init__(self, size: int = 16):
+    def __init__(self, size: int = 8, max_triangles: int = 400_000):
         self.size = size
+        self.max_triangles = max_triangles
         self._meshes: OrderedDict = OrderedDict()
         self._insets: OrderedDict = OrderedDict()
         self._polys: OrderedDict = OrderedDict()
@@ -103,6 +105,9 @@ class CellMeshes:
         store[key] = value
         while len(store) > (self.size if store is self._meshes else 4 * self.size):
             store.popitem(last=False)
+        if store is self._meshes:        # about 0.8 kB a triangle: the oldest go beyond max_triangles
+            while len(store) > 1 and sum(len(m.cent) for m in store.values()) > self.max_triangles:
+                store.popitem(last=False)
         return value
 
     def _prepared(self, poly, key):
