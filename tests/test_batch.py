@@ -4,6 +4,7 @@ import csv
 import io
 import json
 import sys
+from pathlib import Path
 
 import ezdxf
 import pytest
@@ -155,3 +156,31 @@ def test_missing_dask_is_one_clear_line(tmp_path, capsys, monkeypatch):
                  str(tmp_path / "out"), "--quiet"]) == 2
     line = capsys.readouterr().err.strip()
     assert "floorfit[dask]" in line and "\n" not in line
+
+
+def test_batch_site_entry_picks_a_storey_of_a_building_model(tmp_path):
+    # ../shared/models-ifc/stats.json: revit2014_unicode.ifc has storeys 1階 (z 0.0, 1 door contained)
+    # and 2階 (z 3.0 m, no door); the default storey is the one nearest 0 m that holds walls
+    model = (Path(__file__).resolve().parents[2] / "shared" / "models-ifc"
+             / "opensourceBIM__TestFiles__revit2014_unicode.ifc")
+    if not model.is_file():
+        pytest.skip("../shared/models-ifc is not beside the checkout")
+    (tmp_path / "v.toml").write_text('name = "v"\n[footprint]\nwidth = 0.6\nlength = 0.8\n')
+    (tmp_path / "m.toml").write_text(
+        f'[[site]]\nname = "ground"\nplan = "{model.as_posix()}"\n'
+        f'[[site]]\nname = "upper"\nplan = "{model.as_posix()}"\nstorey = "3.0"\n'
+        '[[vehicle]]\nname = "v"\nfile = "v.toml"\n[report]\nformats = ["json"]\n')
+    run_batch(read_manifest(tmp_path / "m.toml"), tmp_path / "out", workers=1)
+    doors = {c: json.loads((tmp_path / "out" / f"{c}__v" / "findings.json").read_text())["plan"]["doors"]
+             for c in ("ground", "upper")}
+    assert doors == {"ground": 1, "upper": 0}
+
+
+def test_batch_storey_must_be_a_name_or_an_elevation(tmp_path):
+    one_door_dxf(tmp_path / "a.dxf", 1.0)
+    (tmp_path / "v.toml").write_text('name = "v"\n[footprint]\nwidth = 0.6\nlength = 0.9\n')
+    (tmp_path / "m.toml").write_text('[[site]]\nname = "a"\nplan = "a.dxf"\nstorey = [1]\n'
+                                     '[[vehicle]]\nname = "v"\nfile = "v.toml"\n')
+    with pytest.raises(InputError) as err:
+        read_manifest(tmp_path / "m.toml")
+    assert err.value.where == "site[1].storey"

@@ -30,6 +30,7 @@ Manifest (TOML, paths relative to the manifest's folder)::
     plan = "plans/north.dxf"
     site = "plans/north.site.toml"   # optional: stations, layer roles, clearance
     units = "mm"               # optional: overrides the drawing's unit
+    storey = "Level 1"         # optional, building models (.ifc): storey name or elevation in metres
 
     [[vehicle]]
     name = "tote"
@@ -65,7 +66,7 @@ CSV_COLUMNS = ("site", "vehicle", "status", "stations", "unreachable_pairs", "bl
 
 _NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,63}$")
 _TOP = ("analysis", "size", "report", "site", "vehicle")
-_SITE = ("name", "plan", "site", "units")
+_SITE = ("name", "plan", "site", "units", "storey")
 _VEHICLE = ("name", "file")
 _ANALYSIS = ("heading_step", "max_direction_changes")
 _SIZE = ("vary", "precision")
@@ -81,6 +82,7 @@ class SiteEntry:
     plan: str
     site: str | None = None
     units: str | None = None
+    storey: str | None = None       # building models: storey name or elevation (m); None = the default
 
 
 @dataclass(frozen=True)
@@ -225,8 +227,11 @@ def read_manifest(path: str | Path) -> Manifest:
         check_keys(t, _SITE, src, where, InputError)
         name = _name(t, src, where, seen)
         units = _units(t, src, where)
+        storey = t.get("storey")
+        if storey is not None and (isinstance(storey, bool) or not isinstance(storey, (str, int, float))):
+            raise InputError(f"expected a storey name or elevation in metres, got {storey!r}", src, f"{where}storey")
         sites.append(SiteEntry(name, _file(t, "plan", base, src, where), _file(t, "site", base, src, where, False),
-                               units))
+                               units, None if storey is None else str(storey)))
     vehicles, seen = [], set()
     for i, t in enumerate(_entries(data, "vehicle", src)):
         where = f"vehicle[{i + 1}]."
@@ -268,6 +273,7 @@ def run_cell(spec: CellSpec) -> dict[str, Any]:
 def _fill_cell(spec: CellSpec, record: dict[str, Any]) -> None:
     from floorfit.analysis.check import run_check
     from floorfit.plan.dxf import load_plan
+    from floorfit.plan.ifc import band_for_height
     from floorfit.plan.site import Site, read_site, stations_from_drawing
     from floorfit.vehicles.rigid import load_vehicle
 
@@ -277,7 +283,8 @@ def _fill_cell(spec: CellSpec, record: dict[str, Any]) -> None:
 
         site = replace(site, max_direction_changes=spec.max_direction_changes)
     vehicle = load_vehicle(spec.vehicle.file)
-    plan = load_plan(spec.site.plan, units=spec.site.units, roles=site.roles)
+    plan = load_plan(spec.site.plan, units=spec.site.units, roles=site.roles, storey=spec.site.storey,
+                     band_top_m=band_for_height(vehicle.height_m))
     stations = list(site.stations)
     if site.station_layer:
         stations += stations_from_drawing(spec.site.plan, site.station_layer, plan.metres_per_unit)
