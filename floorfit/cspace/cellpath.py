@@ -15,7 +15,7 @@ import shapely
 import shapely.ops
 from shapely.geometry import LineString, Point, Polygon
 
-__all__ = ["path_in_polygon", "point_inside"]
+__all__ = ["path_in_polygon", "point_inside", "shortcut_in_polygon"]
 
 _EPS = 1e-6
 
@@ -33,7 +33,9 @@ def point_inside(region, near, inset: float = 1e-4) -> np.ndarray:
     return np.array([q.x, q.y])
 
 
-def _shortcut(poly: Polygon, pts: np.ndarray) -> np.ndarray:
+def shortcut_in_polygon(poly: Polygon, pts: np.ndarray) -> np.ndarray:
+    """Waypoints ``pts`` (M, 2) shortened greedily: from each kept point, the farthest later point
+    joined by a segment inside ``poly`` (local frame, metres). ``poly`` is prepared in place."""
     prepared = poly
     shapely.prepare(prepared)
     out = [pts[0]]
@@ -96,4 +98,4 @@ def path_in_polygon(poly: Polygon, a, b) -> np.ndarray | None:
         else:
             return None
     pts = [a] + [G.edges[u, v]["mid"] for u, v in zip(chain[:-1], chain[1:])] + [b]
-    return _shortcut(poly, np.asarray(pts))
+    return shortcut_in_polygon(poly, np.asarray(pts))

@@ -20,6 +20,8 @@ import shapely
 import shapely.ops
 from shapely.geometry import LineString, Point, Polygon
 
+from floorfit.cspace.cellpath import shortcut_in_polygon
+
 __all__ = ["CellMeshes", "MESHES"]
 
 
@@ -63,19 +65,6 @@ def _dual_graph(coords: np.ndarray, cent: np.ndarray) -> nx.Graph:
                      for o, t, w, m in zip(os_, ts, weights, mids))
     G.add_nodes_from(range(n))
     return G
-
-
-def _shortcut(prepared, pts: np.ndarray) -> np.ndarray:
-    out = [pts[0]]
-    i = 0
-    n = len(pts)
-    while i < n - 1:
-        cand = shapely.linestrings(np.stack([np.repeat(pts[i:i + 1], n - i - 1, axis=0), pts[i + 1:]], axis=1))
-        ok = shapely.covers(prepared, cand)
-        j = i + 1 + (int(np.flatnonzero(ok)[-1]) if ok.any() else 0)
-        out.append(pts[j])
-        i = j
-    return np.asarray(out)
 
 
 class CellMeshes:
@@ -159,7 +148,7 @@ class CellMeshes:
             return None
         G = mesh.G
         pts = [a] + [G.edges[u, v]["mid"] for u, v in zip(chain[:-1], chain[1:])] + [b]
-        return _shortcut(poly, np.asarray(pts))
+        return shortcut_in_polygon(poly, np.asarray(pts))
 
 
 def _chain(mesh: _Mesh, ta, tb) -> list | None:
