@@ -15,7 +15,7 @@ import shapely
 import shapely.ops
 from shapely.geometry import LineString, Point, Polygon
 
-__all__ = ["path_in_polygon", "point_inside", "shortcut_in_polygon"]
+__all__ = ["is_direct", "path_in_polygon", "point_inside", "shortcut_in_polygon"]
 
 _EPS = 1e-6
 
@@ -50,15 +50,18 @@ def shortcut_in_polygon(poly: Polygon, pts: np.ndarray) -> np.ndarray:
     return np.asarray(out)
 
 
+def is_direct(poly: Polygon, a: np.ndarray, b: np.ndarray) -> bool:
+    """True when the straight segment from ``a`` to ``b`` (both inside ``poly``) needs no detour."""
+    return bool(np.allclose(a, b, atol=1e-12) or poly.covers(LineString([a, b])))
+
+
 def path_in_polygon(poly: Polygon, a, b) -> np.ndarray | None:
     """Waypoints (M, 2) from ``a`` to ``b`` inside ``poly`` (local frame, metres), or None if either is outside."""
     a = np.asarray(a, dtype=float)
     b = np.asarray(b, dtype=float)
     if not poly.covers(Point(a)) or not poly.covers(Point(b)):
         return None
-    if np.allclose(a, b, atol=1e-12):
-        return np.array([a, b])
-    if poly.covers(LineString([a, b])):
+    if is_direct(poly, a, b):
         return np.array([a, b])
     tris = shapely.get_parts(shapely.constrained_delaunay_triangles(poly))
     tris = tris[shapely.area(tris) > 0]

@@ -18,9 +18,9 @@ import networkx as nx
 import numpy as np
 import shapely
 import shapely.ops
-from shapely.geometry import LineString, Point, Polygon
+from shapely.geometry import Point, Polygon
 
-from floorfit.cspace.cellpath import shortcut_in_polygon
+from floorfit.cspace.cellpath import is_direct, shortcut_in_polygon
 
 __all__ = ["CellMeshes", "MESHES"]
 
@@ -134,9 +134,7 @@ class CellMeshes:
         poly = self._prepared(poly, key)
         if not poly.covers(Point(a)) or not poly.covers(Point(b)):
             return None
-        if np.allclose(a, b, atol=1e-12):
-            return np.array([a, b])
-        if poly.covers(LineString([a, b])):
+        if is_direct(poly, a, b):
             return np.array([a, b])
         mesh = self._kept(self._meshes, key, lambda: _Mesh(poly))
         ta = mesh.tree.query(Point(a), predicate="intersects")

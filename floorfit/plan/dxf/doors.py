@@ -161,6 +161,16 @@ def _long_side(pts: np.ndarray) -> tuple[float, np.ndarray]:
     return float(sides.max()), np.asarray(box.centroid.coords[0])
 
 
+def _far_ends(arc: ArcInfo, paths) -> list[np.ndarray]:
+    """Far ends of the leaf paths that start at the swing's hinge (within 10 % of its radius)."""
+    ends = []
+    for path in paths:
+        d0, d1 = np.hypot(*(path[0] - arc.centre)), np.hypot(*(path[-1] - arc.centre))
+        if min(d0, d1) <= 0.1 * arc.radius:
+            ends.append(path[-1] if d0 <= d1 else path[0])
+    return ends
+
+
 def _closed_end(arc: ArcInfo, leaf_far_ends: list[np.ndarray]) -> np.ndarray:
     """The arc end where the closed leaf would lie: the end away from the drawn (open) leaf."""
     if leaf_far_ends:
@@ -208,12 +218,7 @@ def find_doors(prims: list[Prim], flat: list[list[np.ndarray]], groups: dict[int
         if arcs:
             for i in arcs:
                 a = prims[i].arc
-                far_ends = []
-                for j in others:
-                    for path in flat[j]:
-                        d0, d1 = np.hypot(*(path[0] - a.centre)), np.hypot(*(path[-1] - a.centre))
-                        if min(d0, d1) <= 0.1 * a.radius:
-                            far_ends.append(path[-1] if d0 <= d1 else path[0])
+                far_ends = [e for j in others for e in _far_ends(a, flat[j])]
                 closed = _closed_end(a, far_ends)
                 c = (a.centre + closed) / 2.0
                 doors.append(DoorFound(float(c[0]), float(c[1]), a.radius, layer, "block", handle))
@@ -259,10 +264,7 @@ def find_doors(prims: list[Prim], flat: list[list[np.ndarray]], groups: dict[int
                     if len(flat[j]) > 1 else shapely.LineString(flat[j][0])
             if sector.covers(geom):
                 leaves.add(j)
-                for path in flat[j]:
-                    d0, d1 = np.hypot(*(path[0] - a.centre)), np.hypot(*(path[-1] - a.centre))
-                    if min(d0, d1) <= 0.1 * a.radius:
-                        far_ends.append(path[-1] if d0 <= d1 else path[0])
+                far_ends.extend(_far_ends(a, flat[j]))
         closed = _closed_end(a, far_ends)
         c = (a.centre + closed) / 2.0
         doors.append(DoorFound(float(c[0]), float(c[1]), a.radius, p.layer, "swing", p.handle))

@@ -155,6 +155,14 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
         solids.extend(items)
         solid_attrs.extend([attrs] * len(items))
 
+    def add_ring(ring, attrs):
+        """A closed ring: the solid it encloses, or linework where it encloses no area."""
+        polys = _ring_polygon(ring)
+        if polys:
+            add_solids(polys, attrs)
+        else:
+            add_walls([ring], attrs)
+
     for i, p in enumerate(prims):
         if i in remove:
             continue
@@ -185,11 +193,7 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
                     add_solids(_polygons_of(merged), attrs)
                 continue
             for ring in paths:
-                polys = _ring_polygon(ring)
-                if polys:
-                    add_solids(polys, attrs)
-                else:
-                    add_walls([ring], attrs)
+                add_ring(ring, attrs)
             continue
         if p.width > 0:
             for path in paths:
@@ -201,11 +205,7 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
         if role == "solid":
             if p.closed:
                 for ring in paths:
-                    polys = _ring_polygon(ring)
-                    if polys:
-                        add_solids(polys, attrs)
-                    else:
-                        add_walls([ring], attrs)
+                    add_ring(ring, attrs)
             else:
                 key = (p.inst, p.layer)
                 pools.setdefault(key, []).extend(shapely.LineString(x) for x in paths if len(x) >= 2)
