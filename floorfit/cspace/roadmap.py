@@ -3,8 +3,9 @@
 Nodes are ``(k, i)``: component ``i`` of heading slice ``k`` (a region where the vehicle
 can translate freely at slice k's heading). An edge joins a component of slice k and one
 of the adjacent slice k+1 (the circle wraps) when their free spaces overlap: inside the
-overlap (the edge's ``zone``) the vehicle can rotate from one slice heading to the other,
-because each slice is clear over its whole heading cell (sound bound).
+overlap (the edge's rotation zone, :func:`rotation_zone`) the vehicle can rotate from one
+slice heading to the other, because each slice is clear over its whole heading cell (sound
+bound).
 """
 
 from __future__ import annotations
@@ -19,7 +20,7 @@ from shapely.geometry import Point
 from floorfit.cspace.headings import arc_deg
 from floorfit.cspace.slices import SliceSet
 
-__all__ = ["build_roadmap", "MIN_ZONE_AREA_M2", "reachable_cells", "station_nodes"]
+__all__ = ["build_roadmap", "MIN_ZONE_AREA_M2", "reachable_cells", "rotation_zone", "station_nodes"]
 
 #: Overlaps smaller than this are not used as rotation zones, square metres (conservative).
 MIN_ZONE_AREA_M2 = 1e-8
@@ -28,11 +29,12 @@ MIN_ZONE_AREA_M2 = 1e-8
 def build_roadmap(slices: SliceSet) -> nx.Graph:
     """Build the roadmap graph of ``slices``.
 
-    Node attributes: ``heading_deg``, ``area_m2``. Edge attributes: ``zone`` (shapely
-    geometry, local frame), ``turn_deg`` (signed rotation from the lower-index slice to
-    the other), ``weight`` (the rotation as arc length at the footprint radius, metres).
-    Graph attributes: ``units``, ``heading_step_deg``, ``tolerance_m``, ``bound``,
-    ``headings``.
+    Node attributes: ``heading_deg``, ``area_m2``. Edge attributes: ``turn_deg`` (signed
+    rotation from the lower-index slice to the other), ``weight`` (the rotation as arc length
+    at the footprint radius, metres). An edge joins two components whose overlap has more
+    than :data:`MIN_ZONE_AREA_M2` of area; the overlap itself (the rotation zone) is made on
+    demand by :func:`rotation_zone`, near where a route needs it. Graph attributes: ``units``,
+    ``heading_step_deg``, ``tolerance_m``, ``bound``, ``headings``.
     """
     G = nx.Graph(units={"length": "m", "heading": "deg"}, heading_step_deg=slices.cells.step_deg,
                  tolerance_m=slices.tolerance_m, bound=slices.bound, headings=len(slices))
@@ -47,6 +49,7 @@ def build_roadmap(slices: SliceSet) -> nx.Graph:
     rho = slices.vehicle.radius_m
     pairs = range(n) if n > 2 else range(1)
     twins = slices.twins
+    probes = _Probes(slices)
     done: dict[tuple[int, int], tuple] = {}
     for k in pairs:
         k2 = (k + 1) % n
@@ -54,24 +57,96 @@ def build_roadmap(slices: SliceSet) -> nx.Graph:
         if not len(a) or not len(b):
             continue
         # slices sharing their free space with twins (half-turn symmetric footprints): the
-        # overlaps of the twin pair are the same geometry
+        # overlaps of the twin pair are the same
         key = (int(twins[k]), int(twins[k2])) if twins is not None else (k, k2)
-        if key in done:
-            ia, ib, zones = done[key]
-        else:
-            ia, ib = slices.tree(k2).query(a, predicate="intersects")
-            zones = shapely.intersection(a[ia], b[ib]) if len(ia) else None
-            done[key] = (ia, ib, zones)
-        if not len(ia):
-            continue
+        if key not in done:
+            done[key] = _overlapping(probes, k, k2)
+        ia, ib = done[key]
+        probes.forget(k)                          # slice k is done with (slice 0 is probed again last)
         turn = float(arc_deg(slices.cells.headings[k], slices.cells.headings[k2]))
         w = rho * math.radians(abs(turn)) + 1e-6
-        for i, j, z in zip(ia, ib, zones):
-            if shapely.area(z) <= MIN_ZONE_AREA_M2:
-                continue
+        for i, j in zip(ia, ib):
             u, v = (k, int(i)), (k2, int(j))
-            G.add_edge(u, v, zone=z, turn_deg=turn if u < v else -turn, weight=w)
+            G.add_edge(u, v, turn_deg=turn if u < v else -turn, weight=w)
     return G
+
+
+#: Radius (m) of the probe octagon, which must lie inside both components: its area,
+#: 2·√2·r² ≈ 2.8e-8 m², exceeds :data:`MIN_ZONE_AREA_M2`, so a probe proves an edge.
+_PROBE_RADIUS_M = 1e-4
+
+
+class _Probes:
+    """Per slice: a small octagon inside each component, and the components prepared for
+    containment tests (made once; :meth:`forget` releases them)."""
+
+    def __init__(self, slices: SliceSet):
+        self.slices = slices
+        self._probes: dict[int, np.ndarray] = {}
+        self._prepared: dict[int, np.ndarray] = {}
+
+    def octagons(self, k: int) -> np.ndarray:
+        if k not in self._probes:
+            pts = shapely.point_on_surface(self.slices.components[k])
+            self._probes[k] = shapely.buffer(pts, _PROBE_RADIUS_M, quad_segs=2)
+        return self._probes[k]
+
+    def components(self, k: int) -> np.ndarray:
+        comps = self.slices.components[k]
+        if k not in self._prepared:
+            fresh = ~shapely.is_prepared(comps)
+            shapely.prepare(comps[fresh])
+            self._prepared[k] = comps[fresh]
+        return comps
+
+    def forget(self, k: int) -> None:
+        self._probes.pop(k, None)
+        mine = self._prepared.pop(k, None)
+        if mine is not None:
+            shapely.destroy_prepared(mine)
+
+    def inside_both(self, octs, k: int, i, k2: int, j) -> np.ndarray:
+        """Whether each octagon lies inside component i of slice k and component j of slice k2."""
+        return (shapely.contains_properly(self.components(k)[i], octs)
+                & shapely.contains_properly(self.components(k2)[j], octs))
+
+
+def _overlapping(probes: _Probes, k: int, k2: int) -> tuple[np.ndarray, np.ndarray]:
+    """Index pairs (i, j) of components of slices k and k2 that overlap by more than MIN_ZONE_AREA_M2.
+
+    A pair is proved by a probe (a tiny octagon around a point inside one component) that
+    lies inside both; the pairs left are decided by their exact overlap area, as before
+    probes existed. The answer is the same as computing every overlap.
+    """
+    slices = probes.slices
+    a, b = slices.components[k], slices.components[k2]
+    ia, ib = slices.tree(k2).query(a)             # envelopes meet
+    if not len(ia):
+        return ia, ib
+    proved = probes.inside_both(probes.octagons(k)[ia], k, ia, k2, ib)
+    rest = ~proved
+    if rest.any():
+        proved[rest] = probes.inside_both(probes.octagons(k2)[ib[rest]], k, ia[rest], k2, ib[rest])
+    rest = np.flatnonzero(~proved)
+    if len(rest):
+        meet = shapely.intersects(a[ia[rest]], b[ib[rest]])
+        rest = rest[meet]
+    if len(rest):
+        areas = shapely.area(shapely.intersection(a[ia[rest]], b[ib[rest]]))
+        proved[rest[areas > MIN_ZONE_AREA_M2]] = True
+    return ia[proved], ib[proved]
+
+
+def rotation_zone(slices: SliceSet, u, v, window: tuple[float, float, float, float] | None = None):
+    """The overlap of roadmap nodes ``u`` and ``v`` (local frame), where the vehicle can rotate
+    between their headings; with ``window`` (xmin, ymin, xmax, ymax, metres) only its part inside
+    that rectangle (the components are cut to it first, so a large free space costs little)."""
+    a = slices.components[u[0]][u[1]]
+    b = slices.components[v[0]][v[1]]
+    if window is not None:
+        box = shapely.box(*window)
+        a, b = shapely.intersection(a, box), shapely.intersection(b, box)
+    return shapely.intersection(a, b)
 
 
 def reachable_cells(G: nx.Graph, source) -> set:

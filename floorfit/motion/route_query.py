@@ -32,7 +32,7 @@ from shapely.geometry import Point, Polygon
 
 from floorfit.cspace.collision import PoseChecker
 from floorfit.cspace.headings import arc_deg, wrap_deg
-from floorfit.cspace.roadmap import build_roadmap
+from floorfit.cspace.roadmap import MIN_ZONE_AREA_M2, build_roadmap, rotation_zone
 from floorfit.cspace.slices import SliceSet, build_slices, choose_headings
 from floorfit.errors import InputError
 from floorfit.motion.cell_mesh import MESHES
@@ -215,6 +215,23 @@ class _Clearance:
         return MESHES.path(poly, a, b)
 
 
+def _zone_near(slices: SliceSet, edge, pos) -> tuple[tuple[float, float, float, float], Any]:
+    """The rotation zone of roadmap ``edge`` near ``pos`` (local frame, m): cut to a square around
+    ``pos`` that is doubled until it holds part of the zone (at most the whole zone). Returns the
+    square (xmin, ymin, xmax, ymax) and the zone's part inside it."""
+    u, v = edge
+    ext = np.array([slices.components[u[0]][u[1]].bounds, slices.components[v[0]][v[1]].bounds])
+    lo, hi = ext[:, :2].min(axis=0), ext[:, 2:].max(axis=0)
+    half = 2.0 * slices.vehicle.radius_m + 1.0
+    while True:
+        window = (pos[0] - half, pos[1] - half, pos[0] + half, pos[1] + half)
+        whole = window[0] <= lo[0] and window[1] <= lo[1] and window[2] >= hi[0] and window[3] >= hi[1]
+        zone = rotation_zone(slices, u, v, window=None if whole else window)
+        if whole or zone.area > MIN_ZONE_AREA_M2:
+            return window, zone
+        half *= 2.0
+
+
 def route_in_slices(slices: SliceSet, G: nx.Graph, start_local, goal_local, *,
                     clearance_m: float = 0.0) -> tuple[str, np.ndarray | None, dict]:
     """Search ``G`` (roadmap of ``slices``) between two local-frame poses.
@@ -245,10 +262,10 @@ def route_in_slices(slices: SliceSet, G: nx.Graph, start_local, goal_local, *,
     while i < len(edges):
         # rotate through as many consecutive slices as possible at one point: the
         # intersection of their rotation zones
-        region = G.edges[edges[i]]["zone"]
+        window, region = _zone_near(slices, edges[i], pos)
         j = i + 1
         while j < len(edges):
-            nxt = shapely.intersection(region, G.edges[edges[j]]["zone"])
+            nxt = shapely.intersection(region, rotation_zone(slices, *edges[j], window=window))
             if nxt.area <= 1e-6:
                 break
             region, j = nxt, j + 1
