@@ -81,7 +81,13 @@ def run(args) -> int:
     from floorfit.cspace.roadmap import build_roadmap
     from floorfit.cspace.slicepool import pool_size
     from floorfit.cspace.slices import build_slices, cached_share, choose_headings, obstacles_for
-    from floorfit.motion.route_query import NOT_FOUND_WITHIN_LIMITS, find_route
+    from floorfit.motion.route_query import (
+        COARSE_FINAL,
+        NOT_FOUND_WITHIN_LIMITS,
+        coarse_cells,
+        coarse_note,
+        find_route,
+    )
     from floorfit.report.progress import Progress
     from floorfit.vehicles.rigid import load_vehicle
 
@@ -100,11 +106,12 @@ def run(args) -> int:
     cells = choose_headings(plan, vehicle, heading_step_deg=args.heading_step, extra_headings=(start[2], goal[2]))
     window = None if getattr(args, "full_slices", False) else _lazy_window(plan, vehicle, start, goal)
     obstacles = None
+    cached_whole = False
     if window is not None and cache is not None:
         # slices of the whole drawing mostly in the cache (a check ran before): reuse them instead
         obstacles = obstacles_for(plan, vehicle)
-        if cached_share(plan, vehicle, cells, obstacles) >= LAZY_CACHED_SHARE:
-            window = None
+        cached_whole = cached_share(plan, vehicle, cells, obstacles) >= LAZY_CACHED_SHARE
+        window = None if cached_whole else window
     result = slices = None
     if window is not None:
         # the slices near start and goal first: a route found there is a route in the plan
@@ -117,6 +124,23 @@ def run(args) -> int:
                             limits=limits, slices=slices, roadmap=build_roadmap(slices), check_optimistic=False)
         if result.status not in LAZY_FINAL:
             result = None          # not settled near the poses: the whole drawing decides
+    coarse = None if args.heading_step is not None or cached_whole else coarse_cells(plan, vehicle, (start[2], goal[2]))
+    if result is None and coarse is not None:
+        # coarse slices of the whole drawing: a route found on them is a route
+        obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
+        processes = pool_size(obstacles, len(coarse), args.workers)
+        progress.stage(f"slices at a coarse {coarse.step_deg:g}° step first: {len(coarse)} headings on "
+                       f"{processes} process{'es' if processes > 1 else ''}")
+        slices = build_slices(plan, vehicle, cells=coarse, workers=args.workers, obstacles=obstacles,
+                              progress=progress.update)
+        progress.stage("roadmap and route search on the coarse slices")
+        result = find_route(plan, vehicle, start, goal, workers=args.workers, limits=limits, slices=slices,
+                            roadmap=build_roadmap(slices), check_optimistic=False)
+        window = None
+        if result.status in COARSE_FINAL:
+            result.notes.append(coarse_note(slices))
+        else:
+            result = None          # the default step decides
     if result is None:
         obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
         processes = pool_size(obstacles, len(cells), args.workers)

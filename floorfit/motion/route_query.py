@@ -33,7 +33,7 @@ from shapely.geometry import Point, Polygon
 from floorfit.cspace.collision import PoseChecker
 from floorfit.cspace.headings import arc_deg, wrap_deg
 from floorfit.cspace.roadmap import MIN_ZONE_AREA_M2, build_roadmap, rotation_zone
-from floorfit.cspace.slices import SliceSet, build_slices, choose_headings
+from floorfit.cspace.slices import SliceSet, build_slices, choose_headings, default_step
 from floorfit.errors import InputError
 from floorfit.motion.cell_mesh import MESHES
 from floorfit.motion.drivable import (
@@ -53,6 +53,7 @@ __all__ = [
     "NOT_FOUND_WITHIN_LIMITS",
     "STATUSES",
     "RouteResult",
+    "coarse_cells",
     "differential_plan",
     "find_route",
     "route_in_slices",
@@ -322,6 +323,10 @@ def find_route(plan: Plan, vehicle: Vehicle, start, goal, *, heading_step_deg: f
     module docstring); ``limits`` (:class:`floorfit.motion.drivable.DriveLimits`) sets the sample
     spacing and the search limits. ``tolerance_m`` then states how much the drive checks
     may have grown the vehicle (:func:`floorfit.motion.drivable.drive_tolerance_m`).
+
+    Without ``slices`` and ``heading_step_deg``, the route is first sought on coarse slices
+    (:func:`coarse_cells`); an answer they settle (:data:`COARSE_FINAL`) is returned with their
+    settings, anything else is decided at the default step.
     """
     sx, sy, sh = _check_pose("start", start)
     gx, gy, gh = _check_pose("goal", goal)
@@ -333,6 +338,14 @@ def find_route(plan: Plan, vehicle: Vehicle, start, goal, *, heading_step_deg: f
             if abs(float(arc_deg(fixed, h))) > 1e-6:
                 raise InputError(f"vehicle '{vehicle.name}' never rotates (mode fixed, heading {fixed:g}°); "
                                  f"the {name} heading {h:g}° cannot be reached", None, name)
+    if slices is None and heading_step_deg is None:
+        coarse = coarse_cells(plan, vehicle, (sh, gh))
+        if coarse is not None:
+            first = build_slices(plan, vehicle, cells=coarse, workers=workers)
+            found = find_route(plan, vehicle, start, goal, slices=first, check_optimistic=False, limits=limits)
+            if found.status in COARSE_FINAL:
+                found.notes.append(coarse_note(first))
+                return found
     if slices is None:
         cells = choose_headings(plan, vehicle, heading_step_deg=heading_step_deg, extra_headings=(sh, gh))
         slices = build_slices(plan, vehicle, cells=cells, workers=workers)
@@ -382,6 +395,37 @@ def find_route(plan: Plan, vehicle: Vehicle, start, goal, *, heading_step_deg: f
     if vehicle.mode in DRIVE_MODES and result.status == "unreachable":
         result.notes.append(f"no motion at all connects the poses, so no {vehicle.mode} path exists either")
     return result
+
+
+#: The coarse first try of a route with the default heading step uses this many times that step ...
+COARSE_FACTOR = 4.0
+#: ... but no more than this, degrees (and none when the default step is already this coarse).
+COARSE_MAX_STEP_DEG = 8.0
+#: Answers the coarse slices settle: a route on sound slices holds at every finer step.
+COARSE_FINAL = ("reachable", "start-blocked", "goal-blocked")
+
+
+def coarse_cells(plan: Plan, vehicle: Vehicle, extra_headings=()):
+    """Heading cells for a coarse first try of a route (:data:`COARSE_FACTOR` × the default step,
+    at most :data:`COARSE_MAX_STEP_DEG`), or None when that would not be at least twice coarser.
+
+    Sound slices of a coarse step hold the vehicle swept over a wider heading cell, so a route
+    found on them is a route (it errs only towards not finding one); where they find none, the
+    default step decides.
+    """
+    if vehicle.mode == "fixed":
+        return None
+    step = default_step(plan, vehicle)
+    coarse = min(COARSE_FACTOR * step, COARSE_MAX_STEP_DEG)
+    if coarse < 2.0 * step:
+        return None
+    return choose_headings(plan, vehicle, heading_step_deg=coarse, extra_headings=extra_headings)
+
+
+def coarse_note(slices: SliceSet) -> str:
+    """What a route answered on the coarse slices states."""
+    return (f"settled on coarse slices first ({slices.cells.step_deg:g}° heading step): a route on sound "
+            f"slices holds at every finer step")
 
 
 def _controllable(vehicle: Vehicle) -> bool:

@@ -1,0 +1,73 @@
+"""The coarse first try of a route: coarse sound slices settle what they can, the default step the rest.
+
+The corridor corner and the longest rectangle that turns it come from C. Moretti, "Moving a
+couch around a corner", College Math. J. 33(3), 2002 (the closed form in
+tests/test_reachability_reference.py).
+"""
+
+from __future__ import annotations
+
+import pytest
+from test_reachability_reference import corner_plan, moretti_length
+
+import floorfit as ff
+from floorfit.cspace.slices import build_slices, choose_headings, default_step
+from floorfit.motion.route_query import COARSE_FACTOR, coarse_cells, find_route
+from floorfit.testing import assert_path_clear
+
+A, B, W = 1.5, 2.0, 0.6          # corridor widths and vehicle width, metres
+START, GOAL = (-4.0, A / 2, 0.0), (B / 2, A + 4.0, 90.0)
+
+
+def _corner(shorter_by: float):
+    plan = corner_plan(A, B)
+    vehicle = ff.rectangle_vehicle(moretti_length(A, B, W) - shorter_by, W)
+    return plan, vehicle
+
+
+def test_coarse_cells_are_a_multiple_of_the_default_step():
+    plan, vehicle = _corner(1.0)
+    step = default_step(plan, vehicle)
+    cells = coarse_cells(plan, vehicle, (START[2], GOAL[2]))
+    assert cells.step_deg == pytest.approx(COARSE_FACTOR * step)
+    assert len(cells) < len(choose_headings(plan, vehicle, extra_headings=(0.0, 90.0))) / 2
+
+
+def test_an_easy_route_is_settled_on_the_coarse_slices():
+    plan, vehicle = _corner(1.0)         # a metre shorter than the longest that turns the corner
+    r = find_route(plan, vehicle, START, GOAL)
+    assert r.status == "reachable"
+    assert r.settings["heading_step_deg"] == pytest.approx(COARSE_FACTOR * default_step(plan, vehicle))
+    assert any("coarse slices" in n for n in r.notes)
+    assert_path_clear(plan, vehicle, r.path)
+    # the same answer at the default step, asked for explicitly
+    fine = find_route(plan, vehicle, START, GOAL, heading_step_deg=default_step(plan, vehicle))
+    assert fine.status == "reachable"
+
+
+@pytest.mark.parametrize("shorter_by", [0.1, 0.2])
+def test_a_tight_corner_the_coarse_slices_miss_is_decided_at_the_default_step(shorter_by):
+    plan, vehicle = _corner(shorter_by)
+    coarse = build_slices(plan, vehicle, cells=coarse_cells(plan, vehicle, (START[2], GOAL[2])))
+    # precondition: the coarse sound slices, conservative by a wider heading cell, see no route
+    assert find_route(plan, vehicle, START, GOAL, slices=coarse, check_optimistic=False).status == "unreachable"
+    r = find_route(plan, vehicle, START, GOAL)
+    assert r.status == "reachable"
+    assert r.settings["heading_step_deg"] == pytest.approx(default_step(plan, vehicle))
+    assert not any("coarse" in n for n in r.notes)
+    assert_path_clear(plan, vehicle, r.path)
+
+
+def test_a_route_too_long_for_the_corner_stays_unreachable():
+    plan, vehicle = _corner(-0.2)        # 0.2 m longer than the closed form allows
+    r = find_route(plan, vehicle, START, GOAL)
+    assert r.status == "unreachable"
+    assert r.settings["heading_step_deg"] == pytest.approx(default_step(plan, vehicle))
+
+
+def test_an_explicit_step_skips_the_coarse_try():
+    plan, vehicle = _corner(1.0)
+    r = find_route(plan, vehicle, START, GOAL, heading_step_deg=2.0)
+    assert r.status == "reachable"
+    assert r.settings["heading_step_deg"] == 2.0
+    assert not any("coarse" in n for n in r.notes)
