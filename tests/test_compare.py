@@ -13,6 +13,7 @@ from floorfit.analysis.check import run_check
 from floorfit.analysis.compare import compare_layouts, compare_results, match_findings
 from floorfit.analysis.findings import Finding, Station
 from floorfit.cli import main
+from floorfit.cspace.slicememo import sharing
 from floorfit.plan.model import Plan
 from floorfit.plan.site import Site
 
@@ -115,6 +116,31 @@ def test_compare_layouts_with_sizing_change():
     assert 0.70 - 2 * s["precision_m"] <= s["before"]["largest_m"] < 0.70
     assert 0.80 - 2 * s["precision_m"] <= s["after"]["largest_m"] < 0.80
     assert not c.after_worse and c.pairs_lost == []
+
+
+
+def test_after_slices_derived_from_before_give_the_answers_of_two_full_checks():
+    # D-1 widened from 0.70 to 1.00 m and a 0.6 m cabinet added in the last room: compare derives
+    # AFTER's slice sets (the check's and the clearance stage's grown vehicle) from BEFORE's near the
+    # changed obstacles; findings, station pairs and settings equal those of two separate checks
+    def plan(doors, cabinet=False):
+        p = rooms_plan(doors)
+        extra = [shapely.box(12.0, 0.8, 12.6, 1.4)] if cabinet else []
+        return Plan.from_geometries(walls=list(p.walls), solids=list(p.solids) + extra)
+
+    before, after = plan([0.70, 1.00]), plan([1.00, 1.00], cabinet=True)
+    site = Site()                       # with the clearance requirement: tight findings too
+    with sharing() as memo:
+        c = compare_layouts(before, after, VEHICLE, STATIONS, site=site, heading_step_deg=STEP)
+    assert memo.derived == 2            # the check's sound slices and the grown vehicle's
+    b = run_check(before, VEHICLE, STATIONS, site=site, heading_step_deg=STEP, stations_inside_ok=True)
+    a = run_check(after, VEHICLE, STATIONS, site=site, heading_step_deg=STEP, stations_inside_ok=True)
+    full = compare_results(b, a)
+    assert [f.to_dict() for f in c.after.findings] == [f.to_dict() for f in a.findings]
+    assert c.after.reachable == a.reachable and c.after.settings == a.settings
+    assert c.to_dict() == full.to_dict()
+    assert c.counts() == {"appeared": 2, "worse": 0, "disappeared": 1, "better": 0, "unchanged": 1}
+    assert c.pairs_gained == [("A", "B"), ("A", "C")] and c.pairs_lost == []
 
 
 def test_compare_command_outputs_and_exit_codes(tmp_path, capsys):

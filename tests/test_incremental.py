@@ -15,6 +15,7 @@ import shapely
 from shapely.geometry import Polygon
 
 import floorfit as ff
+from floorfit.cspace import incremental
 from floorfit.cspace.headings import make_heading_cells
 from floorfit.cspace.incremental import plan_changes, update_slices
 from floorfit.cspace.roadmap import build_roadmap
@@ -159,3 +160,26 @@ def test_closing_an_aisle_changes_reachability_like_a_full_rebuild():
 
     assert joined(old) and not joined(up) and not joined(full)
 
+
+
+def test_half_turn_twins_stay_shared_and_a_change_everywhere_rebuilds_in_full(sites, monkeypatch):
+    site, moved = sites
+    veh = ff.rectangle_vehicle(0.9, 0.62, margin=0.05)      # centred: h and h + 180° share a slice
+    old = build_slices(as_plan(site), veh, cells=CELLS)
+    assert old.twins is not None and (old.twins != np.arange(len(CELLS))).any()
+    up = update_slices(old, as_plan(moved))
+    assert np.array_equal(up.twins, old.twins)
+    for k, t in enumerate(up.twins):
+        assert list(map(shapely.to_wkb, up.components[k])) == list(map(shapely.to_wkb, up.components[int(t)]))
+    assert_same_free_space(up, build_slices(as_plan(moved), veh, cells=CELLS))
+    # every rack, column and machine 1 cm further east: the window around them is 27 % of the slice
+    # domain here; above the share allowed the set is built afresh
+    monkeypatch.setattr(incremental, "MAX_WINDOW_SHARE", 0.25)
+    plan = as_plan(site)
+    shifted = Plan(walls=plan.walls, solids=[shapely.affinity.translate(g, 0.01, 0.0) for g in plan.solids],
+                   origin=plan.origin)
+    full = build_slices(shifted, veh, cells=CELLS)
+    again = update_slices(old, shifted)
+    assert shapely.bounds(again.domain).tolist() == shapely.bounds(full.domain).tolist()
+    for a, b in zip(again.components, full.components):
+        assert list(map(shapely.to_wkb, a)) == list(map(shapely.to_wkb, b))       # bit for bit: the same build

@@ -179,3 +179,22 @@ def test_size_command_writes_json_and_exit_codes(tmp_path, capsys):
     assert main(["size", str(tmp_path / "plan.dxf"), "--vehicle", str(tmp_path / "v.toml"), "--vary", "width"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert err[-1].startswith("floorfit size:") and "station" in err[-1]
+
+
+def test_each_candidate_is_built_once_and_the_binding_check_reuses_its_slices(monkeypatch):
+    # the doorway of the first test: every evaluation builds one slice set; the full check just above
+    # the limit (the binding place) takes the sound slices of that value from the search's own
+    import floorfit.cspace.slices as slices_mod
+
+    built = []
+    real = slices_mod.run_slice_jobs
+
+    def counting(obstacles, jobs, *a, **k):
+        built.append(len(jobs))
+        return real(obstacles, jobs, *a, **k)
+
+    monkeypatch.setattr(slices_mod, "run_slice_jobs", counting)
+    veh = ff.rectangle_vehicle(1.0, 0.6, margin=0.05)
+    r = size_vehicle(two_rooms(0.90), veh, STATIONS, vary="width")
+    assert r.binding is not None and r.binding["clear_width_m"] == pytest.approx(0.90, abs=1e-6)
+    assert len(built) == r.evaluations

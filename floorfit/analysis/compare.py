@@ -324,25 +324,30 @@ def compare_layouts(before_plan: Plan, after_plan: Plan, vehicle: Vehicle, stati
     ``heading_step_deg``) so that the two answers are comparable.
     """
     from floorfit.analysis.check import run_check
+    from floorfit.cspace.incremental import update_slices
+    from floorfit.cspace.slicememo import sharing
 
     progress = progress or (lambda _m: None)
     after_stations = stations if after_stations is None else after_stations
-    progress("checking BEFORE")
-    # a station that a layout covers with an obstacle is a station the vehicle cannot serve there
-    # (a lost or gained station pair), not bad input
-    before = run_check(before_plan, vehicle, stations, site=site, heading_step_deg=heading_step_deg,
-                       workers=workers, stations_inside_ok=True)
-    progress("checking AFTER")
-    after = run_check(after_plan, vehicle, after_stations, site=site, heading_step_deg=heading_step_deg,
-                      workers=workers, stations_inside_ok=True)
-    comparison = compare_results(before, after, match_distance_m=match_distance_m)
-    if size:
-        from floorfit.analysis.sizing import size_vehicle
+    with sharing() as memo:
+        # one slice set per vehicle and shape: AFTER's slices are BEFORE's, recomputed near the changed obstacles
+        memo.relate(before_plan, after_plan, update_slices)
+        progress("checking BEFORE")
+        # a station that a layout covers with an obstacle is a station the vehicle cannot serve there
+        # (a lost or gained station pair), not bad input
+        before = run_check(before_plan, vehicle, stations, site=site, heading_step_deg=heading_step_deg,
+                           workers=workers, stations_inside_ok=True)
+        progress("checking AFTER")
+        after = run_check(after_plan, vehicle, after_stations, site=site, heading_step_deg=heading_step_deg,
+                          workers=workers, stations_inside_ok=True)
+        comparison = compare_results(before, after, match_distance_m=match_distance_m)
+        if size:
+            from floorfit.analysis.sizing import size_vehicle
 
-        progress(f"sizing ({size}) on BEFORE")
-        comparison.sizing_before = size_vehicle(before_plan, vehicle, stations, vary=size, site=site,
-                                                heading_step_deg=heading_step_deg, workers=workers)
-        progress(f"sizing ({size}) on AFTER")
-        comparison.sizing_after = size_vehicle(after_plan, vehicle, after_stations, vary=size, site=site,
-                                               heading_step_deg=heading_step_deg, workers=workers)
+            progress(f"sizing ({size}) on BEFORE")
+            comparison.sizing_before = size_vehicle(before_plan, vehicle, stations, vary=size, site=site,
+                                                    heading_step_deg=heading_step_deg, workers=workers)
+            progress(f"sizing ({size}) on AFTER")
+            comparison.sizing_after = size_vehicle(after_plan, vehicle, after_stations, vary=size, site=site,
+                                                   heading_step_deg=heading_step_deg, workers=workers)
     return comparison

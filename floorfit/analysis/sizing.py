@@ -60,6 +60,7 @@ import shapely
 from floorfit.analysis.budget import budget_applies, budget_text, first_pair_over_budget
 from floorfit.analysis.findings import Station
 from floorfit.cspace.roadmap import build_roadmap
+from floorfit.cspace.slicememo import sharing
 from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for
 from floorfit.errors import InputError
 from floorfit.plan.model import Plan
@@ -341,7 +342,9 @@ def _binding_place(plan, vehicle, stations, site, step, workers) -> tuple[dict |
     return binding, blocked, list(result.notes)
 
 
-# validate, bracket and bisect, check monotonicity, find the binding place: the steps share the evaluation cache
+# validate, bracket and bisect, check monotonicity, find the binding place: the steps share the evaluation cache;
+# the slice sets of the search are shared in memory (the binding place's check reuses those of its value)
+@sharing()
 def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary: str = "width",  # noqa: C901
                  site: Site | None = None, heading_step_deg: float | None = None,
                  precision_m: float = DEFAULT_PRECISION_M, max_m: float | None = None,

@@ -36,17 +36,21 @@ from floorfit.cspace.slices import (
     build_slices,
     cluster_reach_m,
     obstacles_met,
+    shared_jobs,
     slice_domain,
     slice_recipe,
 )
 from floorfit.plan.model import Plan
 
-__all__ = ["update_slices", "plan_changes", "PlanChanges", "obstacles_bounds", "WINDOW_MARGIN_M", "SEAM_OVERLAP_M"]
+__all__ = ["update_slices", "plan_changes", "PlanChanges", "obstacles_bounds", "WINDOW_MARGIN_M", "SEAM_OVERLAP_M",
+           "MAX_WINDOW_SHARE"]
 
 #: Extra margin (metres) added around the reach of the footprint when cutting the window.
 WINDOW_MARGIN_M = 0.25
 #: The free space is recomputed this far (metres) beyond the cut, so old and new overlap at the seam.
 SEAM_OVERLAP_M = 0.05
+#: A window larger than this share of the slice domain is not spliced: the slices are rebuilt in full.
+MAX_WINDOW_SHARE = 0.5
 
 
 @dataclass
@@ -210,12 +214,18 @@ def update_slices(old: SliceSet, new_plan: Plan, changed_window_local=None, *, w
     recipe = slice_recipe(new_plan, vehicle, old.cells, old.bound)
     reach = recipe.radius * (1.0 + 1e-9) + 1e-6
     cut = shapely.intersection(_window(boxes, reach + WINDOW_MARGIN_M), domain)
+    if cut.area > MAX_WINDOW_SHARE * domain.area:
+        return rebuild()                # most of the floor changed: splicing would cost more than it saves
     region = shapely.intersection(_window(boxes, reach + WINDOW_MARGIN_M + SEAM_OVERLAP_M), domain)
     local = _local_obstacles(new_plan, vehicle, region, reach + 1e-6)
     labels = obstacle_clusters(local, cluster_reach_m(recipe))
-    comps = []
-    for k, (parts, heading, grow, anchor) in enumerate(recipe.jobs):
+    # half-turn twins share one slice in a full build (floorfit.cspace.slices.half_turn_twins): here too
+    twins = old.twins if old.twins is not None else np.arange(len(recipe.jobs))
+    own, jobs = shared_jobs(recipe.jobs, twins)
+    done = {}
+    for k, (parts, heading, grow, anchor) in zip(own.tolist(), jobs):
         local_free = shapely.multipolygons(slice_free(local, parts, heading, grow, anchor, region, labels))
-        comps.append(_splice(np.asarray(old.components[k], dtype=object), old.tree(k), cut, region, local_free))
+        done[k] = _splice(np.asarray(old.components[k], dtype=object), old.tree(k), cut, region, local_free)
+    comps = [done[k] if int(twins[k]) == k else done[int(twins[k])].copy() for k in range(len(twins))]
     return SliceSet(plan=new_plan, vehicle=vehicle, cells=old.cells, components=comps, grow_m=old.grow_m,
-                    bound=old.bound, tolerance_m=old.tolerance_m, domain=old.domain)
+                    bound=old.bound, tolerance_m=old.tolerance_m, domain=old.domain, twins=old.twins)

@@ -457,28 +457,16 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
         raise ValueError(f"bound must be one of {BOUNDS}")
     if cells is None:
         cells = choose_headings(plan, vehicle, heading_step_deg=heading_step_deg, extra_headings=extra_headings)
+    memo = _shared_memo()       # slices shared within one run (size, compare): see floorfit.cspace.slicememo
+    shared = memo.get(plan, vehicle, cells, bound, window, workers) if memo is not None else None
+    if shared is not None:
+        return shared
     recipe = slice_recipe(plan, vehicle, cells, bound)
     if window is None:
         obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
         domain = slice_domain(obstacles.bounds, vehicle)
     else:
-        # free space inside the window only: the obstacles within the footprint's reach of it
-        # give every C-obstacle that meets it (a C-obstacle O ⊕ (−F) lies within that reach of O)
-        walls, solids = obstacles_met(plan, vehicle)
-        parts = shapely.get_parts(solids) if len(solids) else solids       # as prepare_obstacles takes them
-        parts = parts[~shapely.is_empty(parts) & (shapely.area(parts) > 0)] if len(parts) else parts
-        met = np.concatenate([walls, parts]) if len(parts) else walls
-        b = shapely.bounds(met) if len(met) else np.zeros((1, 4))
-        whole = (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
-        domain = shapely.intersection(slice_domain(whole, vehicle), box(*window))
-        if domain.is_empty or shapely.get_type_id(domain) != 3:
-            raise ValueError(f"window {window} does not overlap the plan's slice domain")
-        reach = recipe.radius * (1.0 + 1e-9) + 1e-6
-        picked = []
-        for geoms in (walls, solids):
-            idx = shapely.STRtree(geoms).query(domain, predicate="dwithin", distance=reach) if len(geoms) else []
-            picked.append(geoms[np.unique(idx)] if len(geoms) else geoms)
-        obstacles = prepare_obstacles(picked[0], picked[1])
+        obstacles, domain = _window_obstacles(plan, vehicle, window, recipe)
     # obstacles farther apart than the (grown) footprint's diameter never share a C-obstacle
     labels = obstacle_clusters(obstacles, cluster_reach_m(recipe))
     # a footprint symmetric under a half turn: headings h and h + 180° share one slice
@@ -502,11 +490,43 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
             cache.put(job, c)
     comps = [done[k] if twin[k] == k else done[int(twin[k])].copy() for k in range(len(twin))]
     grow = recipe.grow
-    return SliceSet(plan=plan, vehicle=vehicle, cells=cells, components=comps,
-                    grow_m=grow if bound == "sound" else -grow, bound=bound,
-                    tolerance_m=recipe.tolerance, domain=domain, twins=twin,
-                    workers_used=min(processes, max(1, len(todo))) if todo else 0,
-                    reused=len(jobs) - len(todo))
+    result = SliceSet(plan=plan, vehicle=vehicle, cells=cells, components=comps,
+                      grow_m=grow if bound == "sound" else -grow, bound=bound,
+                      tolerance_m=recipe.tolerance, domain=domain, twins=twin,
+                      workers_used=min(processes, max(1, len(todo))) if todo else 0,
+                      reused=len(jobs) - len(todo))
+    if memo is not None:
+        memo.put(result, window)
+    return result
+
+
+def _window_obstacles(plan: Plan, vehicle: Vehicle, window, recipe: SliceRecipe) -> tuple[ObstacleSet, Polygon]:
+    """Obstacles and slice domain of :func:`build_slices` inside ``window`` (local frame, metres)."""
+    # free space inside the window only: the obstacles within the footprint's reach of it
+    # give every C-obstacle that meets it (a C-obstacle O ⊕ (−F) lies within that reach of O)
+    walls, solids = obstacles_met(plan, vehicle)
+    parts = shapely.get_parts(solids) if len(solids) else solids       # as prepare_obstacles takes them
+    parts = parts[~shapely.is_empty(parts) & (shapely.area(parts) > 0)] if len(parts) else parts
+    met = np.concatenate([walls, parts]) if len(parts) else walls
+    b = shapely.bounds(met) if len(met) else np.zeros((1, 4))
+    whole = (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
+    domain = shapely.intersection(slice_domain(whole, vehicle), box(*window))
+    if domain.is_empty or shapely.get_type_id(domain) != 3:
+        raise ValueError(f"window {window} does not overlap the plan's slice domain")
+    reach = recipe.radius * (1.0 + 1e-9) + 1e-6
+    picked = []
+    for geoms in (walls, solids):
+        idx = shapely.STRtree(geoms).query(domain, predicate="dwithin", distance=reach) if len(geoms) else []
+        picked.append(geoms[np.unique(idx)] if len(geoms) else geoms)
+    obstacles = prepare_obstacles(picked[0], picked[1])
+    return obstacles, domain
+
+
+def _shared_memo():
+    """The in-memory slice memo of this run (:func:`floorfit.cspace.slicememo.sharing`), or None."""
+    from floorfit.cspace.slicememo import active_memo
+
+    return active_memo()
 
 
 def cached_share(plan: Plan, vehicle: Vehicle, cells: HeadingCells, obstacles: ObstacleSet | None = None,
