@@ -129,7 +129,13 @@ def _overlapping(probes: _Probes, k: int, k2: int) -> tuple[np.ndarray, np.ndarr
         proved[rest] = probes.inside_both(probes.octagons(k2)[ib[rest]], k, ia[rest], k2, ib[rest])
     rest = np.flatnonzero(~proved)
     if len(rest):
-        meet = shapely.intersects(a[ia[rest]], b[ib[rest]])
+        # the prepared component of the pair asks (a large free space against the small pieces
+        # in its holes answers from its index)
+        pa, pb = probes.components(k)[ia[rest]], probes.components(k2)[ib[rest]]
+        a_asks = shapely.get_num_coordinates(pa) >= shapely.get_num_coordinates(pb)
+        meet = np.empty(len(rest), dtype=bool)
+        meet[a_asks] = shapely.intersects(pa[a_asks], pb[a_asks])
+        meet[~a_asks] = shapely.intersects(pb[~a_asks], pa[~a_asks])
         rest = rest[meet]
     if len(rest):
         areas = shapely.area(shapely.intersection(a[ia[rest]], b[ib[rest]]))
