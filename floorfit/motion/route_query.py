@@ -198,7 +198,17 @@ class _Clearance:
         return None if best is None else best[1]
 
     def leg(self, key, poly, a, b) -> np.ndarray | None:
-        """Waypoints from a to b inside ``poly``, through its eroded copy where possible."""
+        """Waypoints from a to b inside ``poly``, through its eroded copy where possible; first
+        inside the part of ``poly`` near a and b (:func:`_part_near`), which is cheaper to
+        triangulate and erode on a large free space, then inside the whole of it."""
+        near = _part_near(poly, a, b)
+        if near is not None:
+            got = self._leg((key, near.bounds), near, a, b)
+            if got is not None:
+                return got
+        return self._leg(key, poly, a, b)
+
+    def _leg(self, key, poly, a, b) -> np.ndarray | None:
         e = self.eroded(key, poly)
         if e is not None:
             a2, b2 = MESHES.point_inside(e, a), MESHES.point_inside(e, b)
@@ -214,6 +224,26 @@ class _Clearance:
                     keep = [pts[0]] + [p for prev, p in pairwise(pts) if not np.allclose(prev, p, atol=1e-12)]
                     return np.asarray(keep)
         return MESHES.path(poly, a, b)
+
+
+#: A leg is first sought inside the component cut to the box around its ends grown by this
+#: much, metres (or by the leg's length, when longer).
+LEG_REACH_M = 3.0
+
+
+def _part_near(poly, a, b):
+    """The piece of ``poly`` inside the box around a and b (grown by :data:`LEG_REACH_M` or |ab|)
+    that holds both points, or None (no such piece, or the box holds all of ``poly``)."""
+    reach = max(LEG_REACH_M, float(np.hypot(b[0] - a[0], b[1] - a[1])))
+    lo = np.minimum(a[:2], b[:2]) - reach
+    hi = np.maximum(a[:2], b[:2]) + reach
+    x0, y0, x1, y1 = poly.bounds
+    if lo[0] <= x0 and lo[1] <= y0 and hi[0] >= x1 and hi[1] >= y1:
+        return None
+    cut = shapely.intersection(poly, shapely.box(lo[0], lo[1], hi[0], hi[1]))
+    pa, pb = Point(a[0], a[1]), Point(b[0], b[1])
+    return next((g for g in shapely.get_parts(cut)
+                 if isinstance(g, Polygon) and g.covers(pa) and g.covers(pb)), None)
 
 
 def _zone_near(slices: SliceSet, edge, pos) -> tuple[tuple[float, float, float, float], Any]:
