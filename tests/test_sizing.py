@@ -183,7 +183,8 @@ def test_size_command_writes_json_and_exit_codes(tmp_path, capsys):
 
 def test_each_candidate_is_built_once_and_the_binding_check_reuses_its_slices(monkeypatch):
     # the doorway of the first test: every evaluation builds one slice set; the full check just above
-    # the limit (the binding place) takes the sound slices of that value from the search's own
+    # the limit (the binding place) takes the sound slices of that value and the prepared obstacles
+    # from the search's own
     import floorfit.cspace.slices as slices_mod
 
     built = []
@@ -193,8 +194,17 @@ def test_each_candidate_is_built_once_and_the_binding_check_reuses_its_slices(mo
         built.append(len(jobs))
         return real(obstacles, jobs, *a, **k)
 
+    prepared = []
+    real_prepare = slices_mod.prepare_obstacles
+
+    def preparing(*a, **k):
+        prepared.append(1)
+        return real_prepare(*a, **k)
+
     monkeypatch.setattr(slices_mod, "run_slice_jobs", counting)
+    monkeypatch.setattr(slices_mod, "prepare_obstacles", preparing)
     veh = ff.rectangle_vehicle(1.0, 0.6, margin=0.05)
     r = size_vehicle(two_rooms(0.90), veh, STATIONS, vary="width")
     assert r.binding is not None and r.binding["clear_width_m"] == pytest.approx(0.90, abs=1e-6)
     assert len(built) == r.evaluations
+    assert len(prepared) == 1           # the obstacles too: once for the search and the check

@@ -81,6 +81,9 @@ def obstacles_for(plan: Plan, vehicle: Vehicle | None = None) -> ObstacleSet:
     (0, height): bottom < height and top > 0. Without a vehicle height every obstacle
     reaching above the floor counts.
     """
+    memo = _shared_memo()       # the same plan and height within one run: prepared once
+    if memo is not None:
+        return memo.obstacles(plan, vehicle, lambda: prepare_obstacles(*obstacles_met(plan, vehicle)))
     return prepare_obstacles(*obstacles_met(plan, vehicle))
 
 
