@@ -47,6 +47,8 @@ TARGETS = {
     "slices72_large_stretch_s": 3.0,
     "slices72_medium_s": 1.0,
     "route_ratio_large": 300.0,
+    "route_large_s": 8.0,
+    "route_peak_mb": 500.0,
     "peak_mb": 1024.0,
     "check_large_s": 60.0,
     "check_large_stretch_s": 20.0,
@@ -153,10 +155,12 @@ def measure_case(info: dict, fp: str, workers: int, samples: int, tmp: Path) -> 
     return res
 
 
-def measure_route(info: dict, fp: str, workers: int, tmp: Path) -> dict:
+def measure_route(info: dict, fp: str, workers: int, tmp: Path, step: float | None = None) -> dict:
+    """One route query from scratch in a new process, at the default settings (``step`` None) or a
+    uniform heading step (degrees)."""
     start, goal = info["route"]
     spec = {"plan": info["paths"]["plan"], "site": info["paths"]["site"], "vehicle": info["paths"][f"vehicle_{fp}"],
-            "start": list(start), "goal": list(goal), "heading_step": STEP_DEG, "workers": workers}
+            "start": list(start), "goal": list(goal), "heading_step": step, "workers": workers}
     spec_path = tmp / f"route-{fp}.json"
     spec_path.write_text(json.dumps(spec))
     r = run_process([_python(), "-m", "benchmarks.route_case", str(spec_path)])
@@ -211,10 +215,11 @@ def _pair(wall, cpu, spec=".2f") -> str:
 def table(rows: list[dict]) -> str:
     """Markdown table: wall-clock seconds, CPU seconds of the whole process tree in brackets."""
     head = ["size", "edges", "footprint", "s/heading", "72 h, 1 proc", "72 h, 2 proc", "roadmap", "route",
-            "baseline grid", "ratio", "check", "peak MB", "moved: full", "update", "speed-up"]
+            "baseline grid", "ratio", "check", "check, default step", "peak MB", "moved: full", "update", "speed-up"]
     lines = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
     for r in rows:
         c, q, k = r["case"], r.get("route") or {}, r.get("check") or {}
+        kd = r.get("check_default_step") or {}
         peak = max(c.get("case_peak_tree_mb", 0), q.get("peak_tree_mb", 0), k.get("peak_tree_mb", 0))
         ratio = c["baseline_grid_s"] / q["wall_s"] if q.get("wall_s") else None
         ratio_cpu = c["baseline_grid_cpu_s"] / q["cpu_s"] if q.get("cpu_s") else None
@@ -227,7 +232,8 @@ def table(rows: list[dict]) -> str:
             _pair(q.get("wall_s"), q.get("cpu_s"), ".1f"),
             f"{_fmt(c['baseline_grid_s'] / 60.0, '.0f')} ({_fmt(c['baseline_grid_cpu_s'] / 60.0, '.0f')}) min",
             f"{_fmt(ratio, '.0f')}× ({_fmt(ratio_cpu, '.0f')}×)",
-            _pair(k.get("wall_s"), k.get("cpu_s"), ".1f"), _fmt(peak, ".0f"),
+            _pair(k.get("wall_s"), k.get("cpu_s"), ".1f"), _pair(kd.get("wall_s"), kd.get("cpu_s"), ".1f"),
+            _fmt(peak, ".0f"),
             _pair(c["moved_full_s"], c.get("moved_full_cpu_s")),
             _pair(c["moved_incremental_s"], c.get("moved_incremental_cpu_s")),
             _fmt(c["incremental_speedup"], ".1f") + "×"]) + " |")
@@ -248,8 +254,16 @@ def targets(rows: list[dict]) -> list[str]:
                                "s", TARGETS["slices72_large_s"], TARGETS["slices72_large_stretch_s"]))
             if q.get("wall_s"):
                 ratio = c["baseline_grid_s"] / q["wall_s"]
-                out.append(_target(f"[{fp}] route from scratch vs brute force (ratio)", ratio, "×",
+                out.append(_target(f"[{fp}] route from scratch, default settings, vs brute force (ratio)", ratio, "×",
                                    TARGETS["route_ratio_large"], higher=True))
+                out.append(_target(f"[{fp}] route from scratch, default settings", q["wall_s"], "s",
+                                   TARGETS["route_large_s"]))
+                out.append(_target(f"[{fp}] route peak memory (process tree)", q["peak_tree_mb"], "MB",
+                                   TARGETS["route_peak_mb"]))
+            kd = big.get("check_default_step") or {}
+            if kd.get("wall_s"):
+                out.append(_target(f"[{fp}] full check with report, default step, 20k-edge site", kd["wall_s"], "s",
+                                   TARGETS["check_large_stretch_s"]))
             peak = max(c.get("case_peak_tree_mb", 0), q.get("peak_tree_mb", 0), k.get("peak_tree_mb", 0))
             out.append(_target(f"[{fp}] peak memory (process tree)", peak, "MB", TARGETS["peak_mb"]))
             if k.get("wall_s"):
@@ -336,8 +350,10 @@ def main(argv: list[str] | None = None) -> int:  # noqa: C901
     text.append("Seconds of wall-clock time, CPU seconds of the process tree in brackets. s/heading = one exact "
                 "slice on one process (72-heading total / 72); 72 h = all 72 slices (5° step) on 1 / "
                 f"{args.workers} processes; route = query from scratch in a new process (interpreter, import, DXF, "
-                "slices, roadmap, path); baseline grid = brute-force STRtree pose tests extrapolated to a 5 cm × "
-                "72-heading grid; ratio = baseline / route; check = `floorfit check` with the report at a 5° step; "
+                "slices, roadmap, path) at the default settings (coarse first try, then the default heading step); "
+                "baseline grid = brute-force STRtree pose tests extrapolated to a 5 cm × "
+                "72-heading grid; ratio = baseline / route; check = `floorfit check` with the report at a 5° step "
+                "(and at the default step with --default-step-check); "
                 "peak = largest summed PSS of a process tree; moved = one rack row moved: full rebuild vs "
                 "update_slices (one process each).")
     if scaling:
