@@ -19,6 +19,7 @@ from floorfit.cspace import incremental
 from floorfit.cspace.headings import make_heading_cells
 from floorfit.cspace.incremental import plan_changes, update_slices
 from floorfit.cspace.roadmap import build_roadmap
+from floorfit.cspace.slicememo import _coordinates, active_memo, sharing
 from floorfit.cspace.slices import build_slices
 from floorfit.plan.model import Plan
 
@@ -183,3 +184,25 @@ def test_half_turn_twins_stay_shared_and_a_change_everywhere_rebuilds_in_full(si
     assert shapely.bounds(again.domain).tolist() == shapely.bounds(full.domain).tolist()
     for a, b in zip(again.components, full.components):
         assert list(map(shapely.to_wkb, a)) == list(map(shapely.to_wkb, b))       # bit for bit: the same build
+
+
+def test_memo_returns_the_same_set_derives_a_successor_and_keeps_its_bases_longest():
+    hall = shapely.LineString([(0, 0), (20, 0), (20, 8), (0, 8), (0, 0)])
+    wall = [shapely.box(9.8, 0, 10.2, 3.0), shapely.box(9.8, 5.0, 10.2, 8.0)]
+    before = Plan.from_geometries(walls=[hall], solids=wall)
+    after = Plan.from_geometries(walls=[hall], solids=wall + [shapely.box(14.0, 3.2, 15.0, 4.8)])
+    other = Plan.from_geometries(walls=[hall], solids=[shapely.box(4.0, 3.0, 5.0, 4.0)])
+    veh = vehicle()
+    with sharing() as memo:
+        memo.relate(before, after, update_slices)
+        b = build_slices(before, veh, cells=CELLS)
+        assert build_slices(before, veh, cells=CELLS) is b and memo.hits == 1
+        a = build_slices(after, veh, cells=CELLS)            # derived from b near the new block
+        assert memo.derived == 1 and a.plan is after
+        # room for two sets: a third pushes out the least recently used one that is no base (a)
+        memo.max_coordinates = 2 * max(_coordinates(b), _coordinates(a))
+        build_slices(other, veh, cells=CELLS)
+        assert build_slices(before, veh, cells=CELLS) is b
+        assert len(memo) == 2
+    assert active_memo() is None
+    assert_same_free_space(a, build_slices(after, veh, cells=CELLS))        # outside: a full build

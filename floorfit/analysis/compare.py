@@ -24,6 +24,14 @@ A matched finding got *worse* when, beyond the stated tolerances:
 The opposite changes make it *better*; anything else is *unchanged*. The layout as a
 whole is worse when any station pair that was reachable is not any more
 (:attr:`LayoutComparison.after_worse`).
+
+Shared slices
+-------------
+:func:`compare_layouts` checks BEFORE first and keeps its slice sets in memory
+(:mod:`floorfit.cspace.slicememo`); each set AFTER's check (and sizing) asks for with the same
+footprint, heading cells and bound is BEFORE's, recomputed only near the obstacles that differ
+(:func:`floorfit.cspace.incremental.update_slices`). The answers are those of two separate
+checks (the free space agrees up to overlay rounding).
 """
 
 from __future__ import annotations

@@ -44,6 +44,13 @@ A second search with the optimistic bound (errs towards "fits") gives ``upper_m`
 at which even the optimistic bound separates the stations, so the true limit lies in
 ``[largest_m, upper_m)``; the gap is the price of the heading discretisation. All
 evaluations of one search share one set of heading cells (one step throughout).
+
+Shared work
+-----------
+The obstacles are prepared once; each value is evaluated once per bound; the slice sets of the
+search stay in memory (:mod:`floorfit.cspace.slicememo`), so the check that names the binding
+place reuses the sound slices of its value, and within :func:`floorfit.analysis.compare.compare_layouts`
+the search on AFTER derives its sets from BEFORE's where it tries the same values.
 """
 
 from __future__ import annotations

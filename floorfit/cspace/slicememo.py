@@ -16,8 +16,8 @@ asks it first:
 Anything else is built as before and remembered. The prepared obstacles of a plan
 (:func:`floorfit.cspace.slices.obstacles_for`) are kept too, one set per plan and vehicle
 height. The memo keeps at most :data:`MEMO_MAX_COORDINATES` vertices of free space (the least
-recently used sets go first), so a long search cannot fill the memory. Outside :func:`sharing`
-nothing is kept.
+recently used sets go first, sets a successor may be derived from last), so a long search cannot
+fill the memory. Outside :func:`sharing` nothing is kept.
 """
 
 from __future__ import annotations
@@ -31,9 +31,10 @@ import shapely
 
 __all__ = ["SliceMemo", "sharing", "active_memo", "MEMO_MAX_COORDINATES"]
 
-#: Vertices of free space (all slices of all sets) the memo keeps (about 16 bytes each in memory,
-#: measured on real plan #1).
-MEMO_MAX_COORDINATES = 4_000_000
+#: Vertices of free space (all slices of all sets) the memo keeps: 16 to 28 bytes each in memory
+#: (measured on real plan #1 and the large synthetic warehouse, whose 368 slices at the default step
+#: hold about 4 million), so at most about 350 MB.
+MEMO_MAX_COORDINATES = 12_000_000
 _ACTIVE: dict = {"memo": None}
 
 
@@ -119,9 +120,12 @@ class SliceMemo:
         self._sets.move_to_end(key)
         self.stored += 1
         total = sum(c for _, c in self._sets.values())
+        bases = {id(old) for old, _, _ in self._successors}
         while total > self.max_coordinates and len(self._sets) > 1:
-            _, (_, c) = self._sets.popitem(last=False)
-            total -= c
+            # the least recently used set goes first; sets a successor may be derived from go last
+            order = [k for k in self._sets if k != key]
+            drop = next((k for k in order if k[0] not in bases), order[0])
+            total -= self._sets.pop(drop)[1]
 
     def obstacles(self, plan, vehicle, prepare: Callable):
         """The prepared obstacles of ``plan`` for ``vehicle``'s height: ``prepare()`` once per plan and height."""
