@@ -19,7 +19,7 @@ import shapely
 from floorfit.errors import LimitExceeded
 
 __all__ = ["MAX_EDGE_SLICES", "MAX_EDGES", "check_problem_size", "ADVICE_STEPS_DEG", "advised_step_deg",
-           "advised_window"]
+           "advised_window", "window_budget", "WALL_DIRECTION_SLICES"]
 
 #: Largest (obstacle edges × heading slices) for one run: 20,000 edges × 720 slices.
 MAX_EDGE_SLICES = 20_000 * 720
@@ -28,9 +28,13 @@ MAX_EDGES = 400_000
 #: Heading steps the advice picks from, degrees (the coarsest a run accepts is 45°).
 ADVICE_STEPS_DEG = (1.0, 1.25, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 7.5, 9.0, 10.0, 12.0, 15.0, 18.0, 20.0, 22.5,
                     30.0, 36.0, 45.0)
-#: Slices a run may add to the uniform ones when no count is known: wall directions (two
-#: families × four directions × a slice and two guards) and start and goal (× three).
-_EXTRA_SLICES = 2 * 4 * 3 + 2 * 3
+#: The most slices the plan's wall directions add to a run: two families × four directions ×
+#: a slice and two guards (:func:`floorfit.cspace.headings.dominant_directions_deg`,
+#: :func:`floorfit.cspace.headings.make_heading_cells`).
+WALL_DIRECTION_SLICES = 2 * 4 * 3
+#: Slices a run may add to the uniform ones when no count is known: wall directions and start
+#: and goal (× three).
+_EXTRA_SLICES = WALL_DIRECTION_SLICES + 2 * 3
 
 
 def _slices_at(step: float, slices_for_step: Callable[[float], int] | None) -> int:
@@ -105,6 +109,16 @@ def advised_window(plan, max_edges: int) -> tuple[float, float, float, float] | 
     return (math.ceil(w[0] * q) / q, math.ceil(w[1] * q) / q, math.floor(w[2] * q) / q, math.floor(w[3] * q) / q)
 
 
+def window_budget(n_slices: int) -> int:
+    """Most obstacle edges a run cropped with ``--window`` may hold for the limits to accept it.
+
+    The cropped run keeps the heading step and the station, start and goal headings of a run
+    with ``n_slices`` slices, but its wall directions are those of the cropped linework, which
+    may differ: it has at most ``n_slices`` + :data:`WALL_DIRECTION_SLICES` slices.
+    """
+    return max(0, min(MAX_EDGES, MAX_EDGE_SLICES // max(1, n_slices + WALL_DIRECTION_SLICES)))
+
+
 def _window_text(plan, max_edges: int) -> str:
     win = advised_window(plan, max_edges)
     if win is None:
@@ -122,16 +136,14 @@ def check_problem_size(plan, n_slices: int, slices_for_step: Callable[[float], i
     """
     edges = plan.edge_count()
     if edges > MAX_EDGES:
-        # the cropped run keeps its heading slices (give or take a wall direction): a tenth to spare
-        budget = int(0.9 * min(MAX_EDGES, MAX_EDGE_SLICES // max(1, n_slices)))
         raise LimitExceeded(f"the plan has {edges:,} obstacle edges, above the limit of {MAX_EDGES:,} for one run; "
-                            f"{_window_text(plan, budget)} (drawing units), or keep only the plan layers (--layers)",
-                            plan.source)
+                            f"{_window_text(plan, window_budget(n_slices))} (drawing units), or keep only the plan "
+                            "layers (--layers)", plan.source)
     if edges * n_slices > MAX_EDGE_SLICES:
         step = advised_step_deg(edges, slices_for_step)
         if step is not None:
             advice = f"use a coarser --heading-step (e.g. {step:g}°) or crop with --window"
         else:
-            advice = _window_text(plan, int(0.9 * MAX_EDGE_SLICES) // max(1, n_slices)) + " (drawing units)"
+            advice = _window_text(plan, window_budget(n_slices)) + " (drawing units)"
         raise LimitExceeded(f"{edges:,} obstacle edges × {n_slices} heading slices is above the limit of "
                             f"{MAX_EDGE_SLICES:,} for one run; {advice}", plan.source)

@@ -33,10 +33,30 @@ class EntityGeometry:
 
     # -- straight entities -------------------------------------------------------------
     def do_line(self, e, ctx, layer, role, handle, where):
-        pts = np.array([tuple(e.dxf.start), tuple(e.dxf.end)], dtype=float)
-        world = self.to_world(pts, ctx)
-        self.check(world, where)
-        self.add(self.new_prim("line", layer, self.effective_role(role, ctx), "LINE", where, handle, ctx, points=world))
+        prim_role = self.effective_role(role, ctx)
+        ends = self.model_line(e) if ctx.depth == 0 else None
+        if ends is None:
+            world = self.to_world(np.array([tuple(e.dxf.start), tuple(e.dxf.end)], dtype=float), ctx)
+            self.check(world, where)
+            ends = tuple(world.ravel().tolist())
+        if prim_role == "ignore":          # never an obstacle: only its ends count, for the drawn extent
+            self.out.extent_only.extend(ends)
+            return
+        self.add(self.new_prim("line", layer, prim_role, "LINE", where, handle, ctx,
+                               points=np.array((ends[:2], ends[2:]), dtype=float)))
+
+    def model_line(self, e) -> tuple[float, float, float, float] | None:
+        """World ends (x0, y0, x1, y1) of a LINE in model space (identity transform) without numpy:
+        ``v + 0.0`` is what ``to_world`` gives for an identity matrix (x·1 + y·0 + z·0 + 0, a
+        negative zero made positive). None for a non-finite or too large coordinate: the general
+        path then raises the error of :func:`~floorfit.plan.dxf.limits.check_points`."""
+        s, t = e.dxf.start, e.dxf.end
+        if not all(map(math.isfinite, (s.x, s.y, s.z, t.x, t.y, t.z))):
+            return None
+        ends = (s.x + 0.0, s.y + 0.0, t.x + 0.0, t.y + 0.0)
+        if max(map(abs, ends)) > self.limits.max_abs_coordinate:
+            return None
+        return ends
 
     def _quad(self, pts3: np.ndarray, ctx, layer, role, handle, where, dxftype, ocs=None):
         world = self.to_world(pts3, ctx, ocs)

@@ -107,6 +107,15 @@ def _header_int(doc, name: str) -> int | None:
         return None
 
 
+def _release_name(dxfversion: str) -> str | None:
+    """The AutoCAD release of a DXF version code (``AC1024`` -> ``R2010``), None when unknown."""
+    try:
+        from ezdxf.lldxf.const import acad_release
+        return acad_release.get(dxfversion)
+    except Exception:
+        return None
+
+
 def _polygons_of(geom) -> list[shapely.Polygon]:
     if geom is None or geom.is_empty:
         return []
@@ -141,7 +150,7 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
     solids: list[shapely.Polygon] = []
     wall_attrs: list[tuple[str, float, float, str, str]] = []
     solid_attrs: list[tuple[str, float, float, str, str]] = []
-    pools: dict[tuple[int, str], list[shapely.LineString]] = {}
+    pools: dict[tuple[int, str], list[np.ndarray]] = {}       # loose solid lines (paths) per instance and layer
     pool_z: dict[tuple[int, str], tuple[float, float]] = {}
     pool_src: dict[tuple[int, str], tuple[str, str]] = {}
 
@@ -208,7 +217,7 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
                     add_ring(ring, attrs)
             else:
                 key = (p.inst, p.layer)
-                pools.setdefault(key, []).extend(shapely.LineString(x) for x in paths if len(x) >= 2)
+                pools.setdefault(key, []).extend(x for x in paths if len(x) >= 2)
                 z0, z1 = pool_z.get(key, (math.inf, -math.inf))
                 pool_z[key] = (min(z0, p.z0), max(z1, p.z1))
                 pool_src.setdefault(key, _source(p))
@@ -217,11 +226,12 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
     for key, lines in pools.items():
         attrs = (key[1], *pool_z[key], *pool_src[key])
         try:
-            # snap to a grid far below the chord tolerance so that arc ends meet exactly
-            noded = shapely.union_all(shapely.set_precision(np.array(lines, dtype=object), tol_units / 100.0))
+            # snap to a grid far below the chord tolerance so that arc ends meet exactly (the lines
+            # are made in one vectorised call: a floor of exploded furniture pools 100,000 of them)
+            noded = shapely.union_all(shapely.set_precision(_linestrings(lines), tol_units / 100.0))
             polys, cuts, dangles, invalid = shapely.polygonize_full(shapely.get_parts(noded))
         except GEOSException:
-            add_walls((np.asarray(x.coords) for x in lines), attrs)      # keep the outline as linework
+            add_walls(lines, attrs)      # keep the outline as linework
             notes["solid-lines-no-face"] += len(lines)
             continue
         faces = [g for g in shapely.get_parts(polys) if g.area > 0]
@@ -248,6 +258,10 @@ def _flatten_all(prims: list[Prim], tol_units: float, issues: list[ImportIssue])
     """Flatten every primitive; a malformed curve is reported and dropped, never fatal."""
     flat = []
     for p in prims:
+        pts = p.points
+        if p.curve is None and pts is not None and pts.dtype == float and pts.ndim == 2 and pts.shape[1] == 2:
+            flat.append([pts])         # straight: its points are its only path (no copy per line)
+            continue
         try:
             flat.append([np.asarray(x, dtype=float).reshape(-1, 2) for x in p.paths(tol_units)])
         except FloorfitError:
@@ -327,7 +341,12 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
         raise PlanImportError(f"model space is empty (paper space holds {paper} entit{'y' if paper == 1 else 'ies'}; "
                               "floorfit reads model space only)", name)
 
-    walk = walk_modelspace(doc, name, resolver, limits, layer_patterns)
+    header = {key: _header_int(doc, key) for key in ("$INSUNITS", "$MEASUREMENT")}
+    dxf_version, release = doc.dxfversion, _release_name(doc.dxfversion)
+    # model space is read once: each entity is freed as soon as it is walked (a 47 MB drawing
+    # would otherwise be held twice, as ezdxf entities and as primitives)
+    walk = walk_modelspace(doc, name, resolver, limits, layer_patterns, release=True)
+    del doc
     prims = walk.prims
     texts = walk.texts
     if window is not None:
@@ -342,8 +361,8 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
 
     # --- units --------------------------------------------------------------------------
     evidence = UnitEvidence(
-        header_code=_header_int(doc, "$INSUNITS"),
-        measurement=_header_int(doc, "$MEASUREMENT"),
+        header_code=header["$INSUNITS"],
+        measurement=header["$MEASUREMENT"],
         door_sizes=door_size_evidence(prims, walk.door_groups),
     )
     obstacle_prims = [p for p in prims if p.role not in ("door-block", "ignore")]
@@ -365,6 +384,7 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
     flat = _flatten_all(prims, tol_units, issues)
     extra = [np.array([[t.x, t.y] for t in texts])] if texts else []
     extra += walk.extra_points
+    extra.append(walk.extent_only_points())
     drawn_extent = _extent_of(flat + [extra], window)
     doors_found, remove, leaves = find_doors(prims, flat, walk.door_groups, mpu)
     notes: Counter = Counter()
@@ -479,12 +499,6 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
     if sheet:
         issues.append(ImportIssue("not-a-plan", sheet))
 
-    release = None
-    try:
-        from ezdxf.lldxf.const import acad_release
-        release = acad_release.get(doc.dxfversion)
-    except Exception:
-        pass
     def heights(attrs):
         z = np.array([(a[1], a[2]) for a in attrs], dtype=float).reshape(-1, 2) * mpu
         return np.where(np.isfinite(z), z, np.inf)
@@ -499,7 +513,7 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
                 solid_types=np.array([a[4] for a in s_attr], dtype=object),
                 units=decision.name, metres_per_unit=mpu, unit_reason=decision.reason,
                 curve_tolerance_m=curve_tolerance_m, doors=doorways, labels=labels, layers=layer_infos,
-                issues=issues, dxf_version=doc.dxfversion)
+                issues=issues, dxf_version=dxf_version)
     return ImportResult(plan=plan, units=decision, evidence=evidence, block_stats=stats,
                         binary=_is_binary(Path(name)), release=release, layer_roles=layer_roles,
                         notes=dict(notes),

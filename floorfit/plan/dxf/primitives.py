@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 import unicodedata
+from array import array
 from collections import Counter, defaultdict
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -20,7 +21,7 @@ from ezdxf.lldxf.encoding import decode_dxf_unicode, has_dxf_unicode
 __all__ = ["ArcInfo", "Prim", "TextItem", "DoorGroup", "WalkResult", "clean_text", "dxf_name"]
 
 
-@dataclass
+@dataclass(slots=True)
 class ArcInfo:
     """A circular arc after transformation (similarity transforms only), drawing units."""
 
@@ -31,7 +32,7 @@ class ArcInfo:
     span: float        # radians
 
 
-@dataclass
+@dataclass(slots=True)
 class Prim:
     """One importable entity in world coordinates, drawing units, not yet flattened.
 
@@ -104,6 +105,13 @@ class WalkResult:
     filtered: int = 0
     entity_count: int = 0
     extra_points: list = field(default_factory=list)   # annotation points (extent only), world
+    #: x, y, x, y, ... (world, drawing units) of linework that is never an obstacle (ignored and
+    #: text layers): kept flat, for the drawn extent only, instead of one primitive per line
+    extent_only: array = field(default_factory=lambda: array("d"))
+
+    def extent_only_points(self) -> np.ndarray:
+        """The :attr:`extent_only` points as an (N, 2) array (drawing units, world frame)."""
+        return np.frombuffer(self.extent_only, dtype=float).reshape(-1, 2).copy()
 
 
 def clean_text(text: str) -> str:

@@ -61,6 +61,38 @@ def _box_corners(entity) -> list[tuple[float, float, float]]:
     return [(x0, y0, 0.0), (x1, y0, 0.0), (x1, y1, 0.0), (x0, y1, 0.0)]
 
 
+def _transform(pts3: np.ndarray, m: np.ndarray, ocs: np.ndarray | None) -> np.ndarray:
+    """(N, 3) entity coordinates (OCS when ``ocs`` given) through the 4x4 row-vector matrix ``m`` -> (N, 2)."""
+    if ocs is not None:
+        pts3 = pts3 @ ocs
+    return pts3 @ m[:3, :2] + m[3, :2]
+
+
+def _forget(db, entity) -> None:
+    """Delete a model-space entity that was read from the drawing's entity database (a damaged
+    drawing's duplicate or missing handle is left alone: it only costs memory)."""
+    try:
+        db.delete_entity(entity)
+    except Exception:
+        pass
+
+
+def _model_line_z(e) -> tuple[float, float] | None:
+    """:meth:`_Walker.z_range` of a flat LINE (no thickness) in model space, without numpy: its
+    start's z (z·1 + x·0 + y·0 + 0 under the identity transform). None for anything else."""
+    try:
+        dxf = e.dxf
+        if float(dxf.get("thickness", 0.0) or 0.0) != 0.0:
+            return None
+        Vec3(dxf.get("extrusion", (0, 0, 1)))     # as the general path reads it (a bad value gives (0, inf))
+        z = float(Vec3(dxf.start).z) + 0.0
+    except Exception:
+        return None
+    if not math.isfinite(z):
+        return None
+    return (0.0, math.inf) if abs(z) < 1e-12 else (z, math.inf)
+
+
 @dataclass
 class _Ctx:
     m: np.ndarray                # 4x4 block -> world (row vectors)
@@ -78,8 +110,9 @@ class _Ctx:
 
 class _Walker(EntityGeometry):
     def __init__(self, doc, path: str, resolver: RoleResolver, limits: ImportLimits,
-                 layer_patterns: list[str] | None):
+                 layer_patterns: list[str] | None, release: bool = False):
         self.doc = doc
+        self.release = release
         self.path = path
         self._entity = None          # the entity being visited (for its height range)
         self.resolver = resolver
@@ -90,12 +123,23 @@ class _Walker(EntityGeometry):
         self._next_inst = 0
         self._layer_ok: dict[str, bool] = {}
         self._role_cache: dict[tuple, str] = {}
+        self._quiet = False                         # True while run() holds np.errstate for the walk
+        self._names: dict[str, str] = {}            # layer name as stored -> decoded (dxf_name)
+        self._handlers: dict[str, object] = {}      # entity type -> its do_<type> method or None
 
     # -- helpers -------------------------------------------------------------------------
     def where(self, handle: str, ctx: _Ctx) -> str:
         if ctx.block_name is None:
             return f"entity #{handle}"
         return f"entity #{handle} in block '{ctx.block_name}' via INSERT #{ctx.top}"
+
+    def _handler(self, dxftype: str):
+        """The ``do_<type>`` method for an entity type, or None."""
+        try:
+            return self._handlers[dxftype]
+        except KeyError:
+            method = self._handlers[dxftype] = getattr(self, "do_" + dxftype.lower().replace("3d", "three_d"), None)
+            return method
 
     def layer_selected(self, layer: str) -> bool:
         if self.patterns is None:
@@ -119,11 +163,10 @@ class _Walker(EntityGeometry):
 
     def to_world(self, pts3: np.ndarray, ctx: _Ctx, ocs: np.ndarray | None = None) -> np.ndarray:
         """(N, 3) entity coordinates (OCS when ``ocs`` given) -> (N, 2) world, drawing units."""
+        if self._quiet:         # the walk runs under one np.errstate (entering one per call is slow)
+            return _transform(pts3, ctx.m, ocs)
         with np.errstate(invalid="ignore", over="ignore"):   # non-finite input is reported by check()
-            if ocs is not None:
-                pts3 = pts3 @ ocs
-            m = ctx.m
-            return pts3 @ m[:3, :2] + m[3, :2]
+            return _transform(pts3, ctx.m, ocs)
 
     def stretch(self, ctx: _Ctx, ocs: np.ndarray | None = None) -> float:
         """Largest factor by which the transform (entity frame -> world xy) stretches lengths."""
@@ -168,10 +211,19 @@ class _Walker(EntityGeometry):
                    inst=-1, blocks=(), top="", block_name=None)
         for layer in self.doc.layers:
             self.out.layer_names.add(dxf_name(layer.dxf.name))
-        for entity in self.doc.modelspace():
-            handle = entity.dxf.get("handle", "?")
-            top_ctx = _Ctx(ctx.m, 0, None, None, "", -1, -1, (), handle, None)
-            self.visit(entity, top_ctx)
+        db = self.doc.entitydb if self.release else None
+        self._quiet = True
+        try:
+            with np.errstate(invalid="ignore", over="ignore"):   # non-finite input is reported by check()
+                for entity in self.doc.modelspace():
+                    ctx.top = entity.dxf.get("handle", "?")   # one context for model space: only its handle changes
+                    self.visit(entity, ctx)
+                    if db is not None:     # read once: its memory is free for the primitives to come
+                        _forget(db, entity)
+        finally:
+            self._quiet = False
+        # the deferred flattenings keep this walker: let go of the drawing so that it can be freed
+        self.doc = self._entity = None
         return self.out
 
     # the per-entity dispatcher: each early exit (damaged, INSERT, filtered, skipped, text, no handler) is one branch
@@ -180,7 +232,10 @@ class _Walker(EntityGeometry):
         dxftype = e.dxftype()
         try:
             handle = e.dxf.get("handle", "?")
-            own_layer = dxf_name(e.dxf.get("layer", "0") or "0")
+            raw_layer = e.dxf.get("layer", "0") or "0"
+            own_layer = self._names.get(raw_layer)
+            if own_layer is None:
+                own_layer = self._names[raw_layer] = dxf_name(raw_layer)
         except Exception:        # unknown or damaged entity type without the common attributes
             self.out.skipped[dxftype].append(getattr(e.dxf, "handle", None) or "?")
             return
@@ -213,7 +268,7 @@ class _Walker(EntityGeometry):
                 return
             if role == "label":
                 role = "ignore"      # non-text entities on text layers: read for the extent only
-            method = getattr(self, "do_" + dxftype.lower().replace("3d", "three_d"), None)
+            method = self._handler(dxftype)
             if method is None:
                 self.out.skipped[dxftype].append(handle)
                 return
@@ -225,7 +280,8 @@ class _Walker(EntityGeometry):
                                     handle, layer))
 
     def new_prim(self, kind, layer, role, dxftype, where, handle, ctx, **kw) -> Prim:
-        z0, z1 = self.z_range(self._entity, ctx)
+        flat_z = _model_line_z(self._entity) if ctx.depth == 0 and dxftype == "LINE" else None
+        z0, z1 = flat_z if flat_z is not None else self.z_range(self._entity, ctx)
         return Prim(kind=kind, layer=layer, role=role, dxftype=dxftype, where=where, handle=handle,
                     top=ctx.top, group=ctx.group if role == "door-block" else -1, inst=ctx.inst,
                     z0=z0, z1=z1, **kw)
@@ -418,6 +474,11 @@ class _Walker(EntityGeometry):
         self.out.texts.append(TextItem(text, float(xy[0, 0]), float(xy[0, 1]), layer, handle, where))
 
 def walk_modelspace(doc, path: str, resolver: RoleResolver, limits: ImportLimits,
-                    layer_patterns: list[str] | None = None) -> WalkResult:
-    """Expand model space into primitives (drawing units, world frame). See module docstring."""
-    return _Walker(doc, path, resolver, limits, layer_patterns).run()
+                    layer_patterns: list[str] | None = None, release: bool = False) -> WalkResult:
+    """Expand model space into primitives (drawing units, world frame). See module docstring.
+
+    ``release=True`` deletes each model-space entity from ``doc`` once it was read (blocks and
+    tables stay), so that a big drawing is not held twice, as ezdxf entities and as primitives;
+    ``doc`` has an empty model space afterwards.
+    """
+    return _Walker(doc, path, resolver, limits, layer_patterns, release).run()
