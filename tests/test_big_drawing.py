@@ -187,3 +187,14 @@ def test_check_refuses_before_building_slices_with_one_line(small_floor, monkeyp
     assert code == 2 and not built
     assert err[-1].startswith(f"floorfit check: {info['path']}: ") and "above the limit of 1,000" in err[-1]
     assert "Traceback" not in "\n".join(err)
+
+
+@pytest.mark.parametrize("pattern,role,needed", [
+    ("ANSI31", "wall", False), ("SOLID", "wall", False), ("AR-CARPET", "wall", False),
+    ("USER-7", "solid", False), ("USER-7", "wall", True), ("HONEY", "opening", True),
+])
+def test_hatch_thickness_is_measured_only_where_it_decides(pattern, role, needed):
+    from floorfit.plan.dxf.hatches import hatch_needs_thickness, hatch_policy
+    assert hatch_needs_thickness(pattern, role) is needed
+    thin, wide = hatch_policy(pattern, role, 0.1)[0], hatch_policy(pattern, role, 10.0)[0]
+    assert (thin != wide) is needed            # where it is not measured, the thickness changes nothing

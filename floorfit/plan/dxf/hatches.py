@@ -25,8 +25,8 @@ from ezdxf.math import BSpline, Vec3, fit_points_to_cad_cv
 
 from floorfit.plan.dxf.curves import arc_points, bulge_polyline, ellipse_points, spline_points
 
-__all__ = ["SOLID_PATTERNS", "FINISH_PATTERNS", "THIN_FILL_M", "hatch_policy", "hatch_vertex_count",
-           "hatch_rings_flattener"]
+__all__ = ["SOLID_PATTERNS", "FINISH_PATTERNS", "THIN_FILL_M", "hatch_policy", "hatch_needs_thickness",
+           "hatch_vertex_count", "hatch_rings_flattener"]
 
 #: Patterns that fill cut walls / columns (common practice): the hatch is a solid obstacle.
 SOLID_PATTERNS = ("solid", "ansi31", "ansi32", "ansi33", "ar-conc", "ar-b816*", "ar-b88", "ar-brelm",
@@ -61,6 +61,13 @@ def hatch_policy(pattern: str, layer_role: str, thickness_m: float | None = None
     if thickness_m is not None and thickness_m < THIN_FILL_M:
         return "solid", f"pattern '{pattern}' filling a thin area ({thickness_m:.2f} m): wall fill"
     return "ignore", f"pattern '{pattern}' filling a wide area: floor area, not an obstacle"
+
+
+def hatch_needs_thickness(pattern: str, layer_role: str) -> bool:
+    """True when :func:`hatch_policy` decides by the filled area's thickness: a pattern of unknown
+    meaning on a layer that is not a solid layer (the thickness need not be measured otherwise)."""
+    name = pattern.lower()
+    return layer_role != "solid" and not any(fnmatch.fnmatchcase(name, p) for p in SOLID_PATTERNS + FINISH_PATTERNS)
 
 
 def hatch_vertex_count(hatch) -> int:

@@ -21,7 +21,7 @@ from shapely.errors import GEOSException
 
 from floorfit.errors import FloorfitError, InputError, PlanImportError
 from floorfit.plan.dxf.doors import door_size_evidence, find_doors
-from floorfit.plan.dxf.hatches import hatch_policy
+from floorfit.plan.dxf.hatches import hatch_needs_thickness, hatch_policy
 from floorfit.plan.dxf.labels import LabelIndex, to_labels
 from floorfit.plan.dxf.limits import BlockStats, ImportLimits, check_block_graph
 from floorfit.plan.dxf.primitives import Prim, WalkResult
@@ -195,7 +195,8 @@ def _build_geometry(prims: list[Prim], flat: list[list[np.ndarray]], remove: set
                     merged = functools.reduce(shapely.symmetric_difference, polys) if len(polys) > 1 else polys[0]
                 except GEOSException:
                     merged = shapely.union_all(polys)
-                thickness = _fill_thickness(merged) * mpu
+                # the thickness (a largest inscribed circle) only where the pattern leaves the role open
+                thickness = _fill_thickness(merged) * mpu if hatch_needs_thickness(p.pattern, role) else None
                 hrole, _ = hatch_policy(p.pattern, role, thickness)
                 notes[f"hatch-{hrole}"] += 1
                 if hrole == "solid":
@@ -367,8 +368,10 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
     )
     obstacle_prims = [p for p in prims if p.role not in ("door-block", "ignore")]
     if obstacle_prims:
-        boxes = np.array([p.bbox() for p in obstacle_prims])
-        evidence.extent = float(max(boxes[:, 2].max() - boxes[:, 0].min(), boxes[:, 3].max() - boxes[:, 1].min()))
+        # the extent of their boxes is the extent of their points: one array, not a box per primitive
+        pts = np.vstack([p.coarse if p.coarse is not None else p.points for p in obstacle_prims])
+        lo, hi = pts[:, :2].min(axis=0), pts[:, :2].max(axis=0)
+        evidence.extent = float(max(hi[0] - lo[0], hi[1] - lo[1]))
     for t in texts:
         hint = unit_hint_from_text(t.text)
         if hint:
