@@ -113,7 +113,8 @@ def test_4_r12_blocks_on_layer_zero_without_unit_header():
     assert report["units"]["reason"].startswith("no $INSUNITS in the header; chose mm")
     ext = report["obstacle_extent_m"]
     assert (ext[2] - ext[0], ext[3] - ext[1]) == pytest.approx((51.995, 22.155), abs=1e-6)
-    assert len(result.plan.walls) == 3988                                  # MANIFEST #4: 3 988 LINEs in 2 blocks
+    # MANIFEST #4: 3 988 LINEs in 2 blocks; a LINE is one segment, kept or replaced whole by a wall band
+    assert len(result.plan.walls) + result.notes["wall-band-lines"] == 3988
     assert report["counts"]["block_depth"] == 1
 
 

@@ -2,7 +2,8 @@
 
 Prints the DXF version, the unit used and why (with a warning naming the likely unit
 when the header looks wrong), the extent in metres, every layer with its entity count
-and role, the number of obstacles, doors and labels, and every import issue with
+and role, the number of obstacles (with their edges as drawn and after clean-up, and the
+wall bands formed from double wall lines), doors and labels, and every import issue with
 entity handles. ``--json OUT.json`` writes the same report as JSON.
 """
 

@@ -29,6 +29,7 @@ from floorfit.plan.dxf.reading import audit_drawing, open_drawing
 from floorfit.plan.dxf.roles import RoleResolver
 from floorfit.plan.dxf.units import UnitDecision, UnitEvidence, decide_units, parse_units, unit_hint_from_text
 from floorfit.plan.dxf.walker import walk_modelspace
+from floorfit.plan.dxf.wallbands import form_wall_bands
 from floorfit.plan.model import Doorway, ImportIssue, LayerInfo, Plan
 
 __all__ = ["ImportResult", "import_drawing", "DEFAULT_CURVE_TOLERANCE_M"]
@@ -454,6 +455,9 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
 
     walls_m = to_local(walls) if len(walls) else walls
     solids_m = to_local(solids) if len(solids) else solids
+    walls_m, w_attr, solids_m, s_attr, bands = form_wall_bands(     # double wall lines -> filled bands
+        walls_m, w_attr, solids_m, s_attr, lambda lay: resolver.layer_role(lay).role == "wall")
+    notes.update(bands)
 
     labels = to_labels(texts, origin_u, mpu)
     index = LabelIndex(labels)

@@ -16,7 +16,8 @@ __all__ = ["inspect_plan", "report_from_result", "format_report", "cleaned_edge_
 def cleaned_edge_count(plan) -> int:
     """Obstacle edges left after the linework clean-up the C-obstacles start from
     (:func:`floorfit.plan.dxf.cleanup.clean_segments`: zero-length and duplicate segments dropped,
-    collinear overlapping ones merged; filled polygons keep their ring edges)."""
+    collinear overlapping ones merged; filled polygons, wall bands among them
+    (:mod:`floorfit.plan.dxf.wallbands`), keep their ring edges)."""
     n = 0
     if len(plan.walls):
         coords, idx = shapely.get_coordinates(plan.walls, return_index=True)
@@ -31,6 +32,7 @@ def report_from_result(result: ImportResult) -> dict:
     """The JSON-ready report of one import."""
     plan = result.plan
     counts = Counter(d.source for d in plan.doors)
+    bands = result.notes            # wall bands: floorfit.plan.dxf.wallbands.form_wall_bands
     extent = result.drawn_extent_m or plan.extent_m
     return {
         "file": plan.source,
@@ -57,8 +59,10 @@ def report_from_result(result: ImportResult) -> dict:
             "doors": len(plan.doors),
             "doors_by_source": dict(sorted(counts.items())),
             "labels": len(plan.labels),
-            "edges": plan.edge_count(),
+            "edges": plan.edge_count() + bands.get("wall-band-segments", 0) - bands.get("wall-band-edges", 0),
             "edges_after_cleanup": cleaned_edge_count(plan),
+            "wall_bands": bands.get("wall-bands", 0),
+            "wall_band_lines": bands.get("wall-band-lines", 0),
             "expanded_entities": result.block_stats.expanded_entities,
             "block_depth": result.block_stats.max_depth,
         },
@@ -106,7 +110,8 @@ def format_report(report: dict, max_layers: int = 60) -> str:
         f"obstacles   within {report['obstacle_extent_m'][2] - report['obstacle_extent_m'][0]:.2f} x "
         f"{report['obstacle_extent_m'][3] - report['obstacle_extent_m'][1]:.2f} m",
         f"obstacles   {c['obstacles']} ({c['walls']} linework, {c['solids']} filled), {c['edges']} edges"
-        + (f" ({c['edges_after_cleanup']} after clean-up)" if c.get("edges_after_cleanup") is not None else "")
+        + (f" ({c['edges_after_cleanup']} after clean-up; {c.get('wall_bands', 0)} wall bands from "
+           f"{c.get('wall_band_lines', 0)} lines)" if c.get("edges_after_cleanup") is not None else "")
         + f", curves flattened to {report['curve_tolerance_m'] * 1000:g} mm",
         f"doors       {c['doors']}" + (" (" + ", ".join(f"{k} {v}" for k, v in c["doors_by_source"].items()) + ")"
                                        if c["doors_by_source"] else ""),
