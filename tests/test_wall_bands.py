@@ -178,3 +178,29 @@ def test_real_plan_free_space_unchanged(monkeypatch):
         assert len(after.components[k]) == len(before.components[k]) - len(inside)
         assert shapely.difference(b, a).area < 1e-9
         assert shapely.difference(shapely.difference(a, b), bands).area < 1e-9
+
+
+@pytest.mark.xfail(strict=True, reason="cspace.minkowski: a convex part with a nearly collinear run of "
+                   "vertices (1e-14 m jitter) gets a too small Minkowski sum; wall bands avoid it by "
+                   "handing over convex hulls only")
+def test_engine_sums_a_solid_with_jittered_collinear_vertices():
+    """A comb-shaped solid (a wall band of plan #6 before hulls were used, local frame, metres):
+    its C-obstacle for a 0.8 × 0.6 m rectangle at heading 0 must cover the exact sum, the union
+    of the sums of its constrained Delaunay triangles (hulls of pairwise vertex sums)."""
+    from floorfit.cspace.minkowski import cobstacle_pieces, footprint_parts_at, prepare_obstacles
+
+    comb = shapely.Polygon([
+        (10.867528769903, 1.964860722408676), (10.867528769903, 2.1664607224089196),
+        (15.907528769903, 2.1664607224088868), (15.907528769903, 1.86406072240874),
+        (14.647528769903, 1.86406072240874), (14.647528769903, 1.9648607224087122),
+        (13.387528769903, 1.9648607224087125), (13.387528769903, 1.86406072240874),
+        (12.127528769903, 1.86406072240874), (12.127528769903, 1.9648607224086758)])
+    rect = shapely.Polygon([(0.4, -0.3), (0.4, 0.3), (-0.4, 0.3), (-0.4, -0.3)])
+    part = footprint_parts_at([rect], 0.0, 0.0)
+    engine = shapely.union_all(cobstacle_pieces(prepare_obstacles(np.zeros(0, dtype=object),
+                                                                  np.array([comb], dtype=object)), part))
+    neg = -np.asarray(part[0])
+    tris = shapely.get_parts(shapely.constrained_delaunay_triangles(comb))
+    exact = shapely.union_all([shapely.MultiPoint((np.asarray(t.exterior.coords)[:, None] + neg[None]).reshape(-1, 2))
+                               .convex_hull for t in tris])
+    assert shapely.difference(exact, engine).area < 1e-9
