@@ -180,9 +180,6 @@ def test_real_plan_free_space_unchanged(monkeypatch):
         assert shapely.difference(shapely.difference(a, b), bands).area < 1e-9
 
 
-@pytest.mark.xfail(strict=True, reason="cspace.minkowski: a convex part with a nearly collinear run of "
-                   "vertices (1e-14 m jitter) gets a too small Minkowski sum; wall bands avoid it by "
-                   "handing over convex hulls only")
 def test_engine_sums_a_solid_with_jittered_collinear_vertices():
     """A comb-shaped solid (a wall band of plan #6 before hulls were used, local frame, metres):
     its C-obstacle for a 0.8 × 0.6 m rectangle at heading 0 must cover the exact sum, the union

@@ -415,7 +415,10 @@ def prepare_obstacles(walls, solids) -> ObstacleSet:
     segs = _segments_of(np.concatenate([walls, np.asarray(nonconvex, dtype=object)])
                         if nonconvex else walls)
     segs = _uncovered_segments(segs, pieces)
-    rings = [np.asarray(p.exterior.coords)[:-1] for p in pieces]
+    # each piece as its convex hull: a piece convex only within the tolerances above (a nearly
+    # collinear run of vertices may turn the wrong way by a rounding error) would break the
+    # edge order of the sums; the hull holds the piece and is convex on the stored coordinates
+    rings = [np.asarray(h.exterior.coords)[:-1] for h in shapely.convex_hull(pieces)] if len(pieces) else []
     groups = _padded_groups(rings) if rings else []
     if len(segs):
         groups = [ConvexGroup.of(segs)] + groups
@@ -477,11 +480,13 @@ def footprint_parts_at(parts: list[Polygon], heading_deg: float, grow_m: float =
     """Convex footprint parts rotated to ``heading_deg``, grown by ``grow_m`` (:func:`grow_convex`), as vertex arrays.
 
     The grown part contains the part's Minkowski sum with a disc of radius ``grow_m``, so
-    growing is conservative.
+    growing is conservative. Each part is handed over as the convex hull of its rotated vertices.
     """
     out = []
     for p in parts:
-        q = shapely.affinity.rotate(p, heading_deg, origin=(0, 0))
+        # the hull of the rotated part: rotation rounding can turn a collinear vertex slightly
+        # inwards, which the edge merge of the sums must not see (the hull holds the part)
+        q = shapely.convex_hull(shapely.affinity.rotate(p, heading_deg, origin=(0, 0)))
         v = np.asarray(q.exterior.coords)[:-1]
         out.append(grow_convex(v, grow_m) if grow_m > 0 else v)
     return out
