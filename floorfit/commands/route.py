@@ -42,7 +42,8 @@ def add_arguments(p) -> None:
     p.add_argument("--json", metavar="OUT.json", help="write the answer as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress output")
     p.add_argument("--full-slices", action="store_true",
-                   help="build the slices for the whole drawing at once instead of first near start and goal")
+                   help="build the slices for the whole drawing at the heading step at once instead of first "
+                        "near start and goal, then at a coarse step")
     add_cache_argument(p)
 
 
@@ -124,7 +125,9 @@ def run(args) -> int:
                             limits=limits, slices=slices, roadmap=build_roadmap(slices), check_optimistic=False)
         if result.status not in LAZY_FINAL:
             result = None          # not settled near the poses: the whole drawing decides
-    coarse = None if args.heading_step is not None or cached_whole else coarse_cells(plan, vehicle, (start[2], goal[2]))
+    full = getattr(args, "full_slices", False)
+    coarse = None if args.heading_step is not None or cached_whole or full \
+        else coarse_cells(plan, vehicle, (start[2], goal[2]))
     if result is None and coarse is not None:
         # coarse slices of the whole drawing: a route found on them is a route
         obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)

@@ -246,12 +246,21 @@ def _part_near(poly, a, b):
                  if isinstance(g, Polygon) and g.covers(pa) and g.covers(pb)), None)
 
 
-def _zone_near(slices: SliceSet, edge, pos) -> tuple[tuple[float, float, float, float], Any]:
-    """The rotation zone of roadmap ``edge`` near ``pos`` (local frame, m): cut to a square around
-    ``pos`` that is doubled until it holds part of the zone (at most the whole zone). Returns the
-    square (xmin, ymin, xmax, ymax) and the zone's part inside it."""
+#: Components with more vertices than this together get their rotation zones near the route
+#: only (:func:`_zone_near`); smaller ones whole, as cheap as a cut.
+LOCAL_ZONE_MIN_VERTICES = 20_000
+
+
+def _zone_near(slices: SliceSet, edge, pos) -> tuple[tuple[float, float, float, float] | None, Any]:
+    """The rotation zone of roadmap ``edge`` near ``pos`` (local frame, m): on large components
+    (:data:`LOCAL_ZONE_MIN_VERTICES`) cut to a square around ``pos`` that is doubled until it
+    holds part of the zone (at most the whole zone), else whole. Returns the square (xmin, ymin,
+    xmax, ymax) or None (whole), and the zone's part inside it."""
     u, v = edge
-    ext = np.array([slices.components[u[0]][u[1]].bounds, slices.components[v[0]][v[1]].bounds])
+    a, b = slices.components[u[0]][u[1]], slices.components[v[0]][v[1]]
+    if shapely.get_num_coordinates(a) + shapely.get_num_coordinates(b) <= LOCAL_ZONE_MIN_VERTICES:
+        return None, rotation_zone(slices, u, v)
+    ext = np.array([a.bounds, b.bounds])
     lo, hi = ext[:, :2].min(axis=0), ext[:, 2:].max(axis=0)
     half = 2.0 * slices.vehicle.radius_m + 1.0
     while True:
