@@ -15,7 +15,8 @@ Modules: :mod:`~floorfit.motion.segments` (path pieces), :mod:`~floorfit.motion.
 :mod:`~floorfit.motion.drivable` (turns the holonomic roadmap's answers into paths a
 differential or car-like base can drive; the car search in :mod:`~floorfit.motion.drivable_car`,
 the collision checks against the slices in :mod:`~floorfit.motion.slice_checks`) and
-:mod:`~floorfit.motion.route_query` (route queries between two poses: the ``floorfit route`` answer).
+:mod:`~floorfit.motion.route_query` (route queries between two poses: the ``floorfit route`` answer; the
+holonomic path through the roadmap's cells in :mod:`~floorfit.motion.cell_route`).
 
 Stage 4 of the pipeline. May import: :mod:`floorfit.cspace`, :mod:`floorfit.vehicles`,
 :mod:`floorfit.plan`, :mod:`floorfit.errors`.
