@@ -198,3 +198,27 @@ def test_hatch_thickness_is_measured_only_where_it_decides(pattern, role, needed
     assert hatch_needs_thickness(pattern, role) is needed
     thin, wide = hatch_policy(pattern, role, 0.1)[0], hatch_policy(pattern, role, 10.0)[0]
     assert (thin != wide) is needed            # where it is not measured, the thickness changes nothing
+
+
+def test_cyclic_gc_is_paused_for_the_import_and_restored(small_floor):
+    import gc
+
+    from floorfit.plan.dxf.reading import no_cyclic_gc
+    _, info = small_floor
+    assert gc.isenabled()
+    seen = []
+    with no_cyclic_gc():
+        seen.append(gc.isenabled())
+        with no_cyclic_gc():              # nested: the outer pause stands
+            pass
+        seen.append(gc.isenabled())
+    assert seen == [False, False] and gc.isenabled()
+    with pytest.raises(LimitExceeded):      # restored when the import fails too
+        import_drawing(info["path"], limits=ImportLimits(max_expanded_entities=10))
+    assert gc.isenabled()
+    gc.disable()
+    try:                                    # a caller that paused it keeps it paused
+        import_drawing(info["path"])
+        assert not gc.isenabled()
+    finally:
+        gc.enable()

@@ -9,6 +9,7 @@ and recognised for good once the unit is fixed.
 from __future__ import annotations
 
 import functools
+import gc
 import math
 from collections import Counter
 from dataclasses import dataclass, field
@@ -25,7 +26,7 @@ from floorfit.plan.dxf.hatches import hatch_needs_thickness, hatch_policy
 from floorfit.plan.dxf.labels import LabelIndex, to_labels
 from floorfit.plan.dxf.limits import BlockStats, ImportLimits, check_block_graph
 from floorfit.plan.dxf.primitives import Prim, WalkResult
-from floorfit.plan.dxf.reading import audit_drawing, open_drawing
+from floorfit.plan.dxf.reading import audit_drawing, no_cyclic_gc, open_drawing
 from floorfit.plan.dxf.roles import RoleResolver
 from floorfit.plan.dxf.units import UnitDecision, UnitEvidence, decide_units, parse_units, unit_hint_from_text
 from floorfit.plan.dxf.walker import walk_modelspace
@@ -312,11 +313,23 @@ def _skipped_issues(walk: WalkResult) -> list[ImportIssue]:
     return issues
 
 
-# the import pipeline stage by stage (read, walk, units, doors, geometry, local frame, issues), as marked below
-def import_drawing(path, *, units: str | None = None, roles: dict | None = None, window=None,  # noqa: C901
+def import_drawing(path, *, units: str | None = None, roles: dict | None = None, window=None,
                    layers=None, keep_door_leaves: bool = False, limits: ImportLimits | None = None,
                    curve_tolerance_m: float = DEFAULT_CURVE_TOLERANCE_M) -> ImportResult:
-    """Import a DXF floor plan; see :func:`floorfit.plan.dxf.load_plan` for the parameters."""
+    """Import a DXF floor plan; see :func:`floorfit.plan.dxf.load_plan` for the parameters.
+
+    Python's cyclic garbage collector is paused meanwhile (:func:`.reading.no_cyclic_gc`): the
+    import makes millions of long-lived objects and frees what it no longer needs itself.
+    """
+    with no_cyclic_gc():
+        return _import_drawing(path, units=units, roles=roles, window=window, layers=layers,
+                               keep_door_leaves=keep_door_leaves, limits=limits,
+                               curve_tolerance_m=curve_tolerance_m)
+
+
+# the import pipeline stage by stage (read, walk, units, doors, geometry, local frame, issues), as marked below
+def _import_drawing(path, *, units, roles, window, layers, keep_door_leaves, limits,  # noqa: C901
+                    curve_tolerance_m) -> ImportResult:
     name = str(path)
     limits = limits or ImportLimits()
     if units is not None:
@@ -349,6 +362,7 @@ def import_drawing(path, *, units: str | None = None, roles: dict | None = None,
     # would otherwise be held twice, as ezdxf entities and as primitives)
     walk = walk_modelspace(doc, name, resolver, limits, layer_patterns, release=True)
     del doc
+    gc.collect()        # what is left of the drawing (blocks, tables, objects) holds reference cycles
     prims = walk.prims
     texts = walk.texts
     if window is not None:

