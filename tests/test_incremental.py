@@ -192,17 +192,21 @@ def test_memo_returns_the_same_set_derives_a_successor_and_keeps_its_bases_longe
     before = Plan.from_geometries(walls=[hall], solids=wall)
     after = Plan.from_geometries(walls=[hall], solids=wall + [shapely.box(14.0, 3.2, 15.0, 4.8)])
     other = Plan.from_geometries(walls=[hall], solids=[shapely.box(4.0, 3.0, 5.0, 4.0)])
-    veh = vehicle()
+    veh, coarse = vehicle(), make_heading_cells(45.0)
     with sharing() as memo:
         memo.relate(before, after, update_slices)
         b = build_slices(before, veh, cells=CELLS)
         assert build_slices(before, veh, cells=CELLS) is b and memo.hits == 1
+        b45 = build_slices(before, veh, cells=coarse)
         a = build_slices(after, veh, cells=CELLS)            # derived from b near the new block
         assert memo.derived == 1 and a.plan is after
-        # room for two sets: a third pushes out the least recently used one that is no base (a)
-        memo.max_coordinates = 2 * max(_coordinates(b), _coordinates(a))
-        build_slices(other, veh, cells=CELLS)
-        assert build_slices(before, veh, cells=CELLS) is b
-        assert len(memo) == 2
+        assert build_slices(after, veh, cells=CELLS) is a and len(memo) == 2    # b has served: dropped
+        # room for two sets: a third pushes out the least recently used one that is no base (a, not b45)
+        memo.max_coordinates = _coordinates(b45) + _coordinates(a)
+        o = build_slices(other, veh, cells=coarse)
+        assert build_slices(before, veh, cells=coarse) is b45 and len(memo) == 2
+        memo.release(before, veh, coarse, "sound")           # a successor may still need it: kept
+        memo.release(other, veh, coarse, "sound")
+        assert len(memo) == 1 and build_slices(other, veh, cells=coarse) is not o
     assert active_memo() is None
     assert_same_free_space(a, build_slices(after, veh, cells=CELLS))        # outside: a full build

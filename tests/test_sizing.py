@@ -13,6 +13,7 @@ import floorfit as ff
 from floorfit.analysis.findings import Station
 from floorfit.analysis.sizing import family_is_nested, size_vehicle, vehicle_family
 from floorfit.cli import main
+from floorfit.cspace.slicememo import sharing
 from floorfit.errors import InputError
 from floorfit.plan.dxf.importer import DEFAULT_CURVE_TOLERANCE_M
 from floorfit.plan.model import Doorway, Label, Plan
@@ -204,7 +205,9 @@ def test_each_candidate_is_built_once_and_the_binding_check_reuses_its_slices(mo
     monkeypatch.setattr(slices_mod, "run_slice_jobs", counting)
     monkeypatch.setattr(slices_mod, "prepare_obstacles", preparing)
     veh = ff.rectangle_vehicle(1.0, 0.6, margin=0.05)
-    r = size_vehicle(two_rooms(0.90), veh, STATIONS, vary="width")
+    with sharing() as memo:
+        r = size_vehicle(two_rooms(0.90), veh, STATIONS, vary="width")
+        assert len(memo) == 1           # memory: only the set of the value just above the limit is kept
     assert r.binding is not None and r.binding["clear_width_m"] == pytest.approx(0.90, abs=1e-6)
     assert len(built) == r.evaluations
     assert len(prepared) == 1           # the obstacles too: once for the search and the check

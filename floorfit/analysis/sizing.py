@@ -67,7 +67,7 @@ import shapely
 from floorfit.analysis.budget import budget_applies, budget_text, first_pair_over_budget
 from floorfit.analysis.findings import Station
 from floorfit.cspace.roadmap import build_roadmap
-from floorfit.cspace.slicememo import sharing
+from floorfit.cspace.slicememo import active_memo, sharing
 from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for
 from floorfit.errors import InputError
 from floorfit.plan.model import Plan
@@ -413,6 +413,9 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
     budget = budget if budget_applies(vehicle, budget) else None
     binding_pair: list[tuple[str, str]] = []        # the pair that failed the budget last
 
+    memo = active_memo()
+    unfit: list[float] = []      # the last value the sound bound rejected: the binding check reuses its slices
+
     def evaluate(value: float, bound: str) -> Connectivity:
         if (bound, value) not in tried:
             progress(f"{vary} {value:.3f} m ({bound} bound)")
@@ -422,6 +425,12 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
             if c.over_budget is not None:
                 binding_pair.append(tuple(c.over_budget["pair"]))
             tried[(bound, value)] = c
+            # memory: keep only the slices a later step can reuse
+            done = value if bound != "sound" or c.connected else (unfit.pop() if unfit else None)
+            if bound == "sound" and not c.connected:
+                unfit.append(value)
+            if done is not None and memo is not None:
+                memo.release(plan, make(done), cells, bound)
         return tried[(bound, value)]
 
     def fits(value: float) -> bool:

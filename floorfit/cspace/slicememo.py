@@ -15,9 +15,11 @@ asks it first:
 
 Anything else is built as before and remembered. The prepared obstacles of a plan
 (:func:`floorfit.cspace.slices.obstacles_for`) are kept too, one set per plan and vehicle
-height. The memo keeps at most :data:`MEMO_MAX_COORDINATES` vertices of free space (the least
-recently used sets go first, sets a successor may be derived from last), so a long search cannot
-fill the memory. Outside :func:`sharing` nothing is kept.
+height. A base set is dropped once its successor's set is derived from it, and a caller that will
+not ask for a set again may :meth:`SliceMemo.release` it. The memo keeps at most
+:data:`MEMO_MAX_COORDINATES` vertices of free space (the least recently used sets go first, sets
+a successor may be derived from last), so a long search cannot fill the memory. Outside
+:func:`sharing` nothing is kept.
 """
 
 from __future__ import annotations
@@ -98,9 +100,18 @@ class SliceMemo:
             finally:
                 self._deriving = False
             self.derived += 1
+            # the base has served: its successor's set is kept from now on
+            self._sets.pop(self._key(old_plan, vehicle, cells, bound, None), None)
             self.put(made)
             return self._for(made, vehicle)
         return None
+
+    def release(self, plan, vehicle, cells, bound: str, window=None) -> None:
+        """Forget the set of these arguments (a caller that will not ask again), unless a successor of
+        ``plan`` may still be derived from it."""
+        if any(old is plan for old, _, _ in self._successors):
+            return
+        self._sets.pop(self._key(plan, vehicle, cells, bound, window), None)
 
     @staticmethod
     def _for(slices, vehicle):
