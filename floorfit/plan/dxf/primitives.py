@@ -110,8 +110,11 @@ class WalkResult:
     extent_only: array = field(default_factory=lambda: array("d"))
 
     def extent_only_points(self) -> np.ndarray:
-        """The :attr:`extent_only` points as an (N, 2) array (drawing units, world frame)."""
-        return np.frombuffer(self.extent_only, dtype=float).reshape(-1, 2).copy()
+        """The :attr:`extent_only` points as an (N, 2) array (drawing units, world frame): a view,
+        read-only, on the walk's buffer (which then cannot grow)."""
+        view = np.frombuffer(self.extent_only, dtype=float).reshape(-1, 2)
+        view.flags.writeable = False
+        return view
 
 
 def clean_text(text: str) -> str:
