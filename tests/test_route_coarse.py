@@ -71,3 +71,30 @@ def test_an_explicit_step_skips_the_coarse_try():
     assert r.status == "reachable"
     assert r.settings["heading_step_deg"] == 2.0
     assert not any("coarse" in n for n in r.notes)
+
+
+def test_route_refuses_a_run_too_large_before_building_the_whole_drawing(tmp_path, monkeypatch, capsys):
+    import re
+
+    import floorfit.cspace.sizelimits as limits
+    import floorfit.cspace.slices as slices_module
+    from floorfit.cli import main
+    from floorfit.demo import write_demo_site
+
+    demo = write_demo_site(tmp_path / "plans")
+    edges = ff.load_plan(demo["plan"]).edge_count()
+    monkeypatch.setattr(limits, "MAX_EDGE_SLICES", edges * 60)     # about 60 slices allowed
+    route = ["route", str(demo["plan"]), "--vehicle", str(demo["vehicle"]), "--start", "15,2.2,-90",
+             "--goal", "6.5,11,90", "--quiet", "--no-cache", "--full-slices"]
+    built = []
+    real_build = slices_module.build_slices
+    monkeypatch.setattr(slices_module, "build_slices", lambda *a, **k: built.append(1))
+    code = main(route)
+    err = capsys.readouterr().err.strip().splitlines()
+    assert code == 2 and not built
+    assert err[-1].startswith(f"floorfit route: {demo['plan']}: ") and f"above the limit of {edges * 60:,}" in err[-1]
+    assert "Traceback" not in "\n".join(err)
+    step = re.search(r"--heading-step \(e\.g\. ([0-9.]+)°\)", err[-1]).group(1)
+    # followed, the advice is accepted and the route answered
+    monkeypatch.setattr(slices_module, "build_slices", real_build)
+    assert main(route + ["--heading-step", step]) == 0

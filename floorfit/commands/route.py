@@ -80,6 +80,7 @@ def _limits(args):
 
 def run(args) -> int:
     from floorfit.cspace.roadmap import build_roadmap
+    from floorfit.cspace.sizelimits import check_problem_size
     from floorfit.cspace.slicepool import pool_size
     from floorfit.cspace.slices import build_slices, cached_share, choose_headings, obstacles_for
     from floorfit.motion.route_query import (
@@ -128,6 +129,10 @@ def run(args) -> int:
     full = getattr(args, "full_slices", False)
     coarse = None if args.heading_step is not None or cached_whole or full \
         else coarse_cells(plan, vehicle, (start[2], goal[2]))
+    if result is None:
+        # the whole drawing's slices follow: refuse a run too large, with advice that works
+        check_problem_size(plan, len(cells), slices_for_step=lambda step: len(choose_headings(
+            plan, vehicle, heading_step_deg=step, extra_headings=(start[2], goal[2]))))
     if result is None and coarse is not None:
         # coarse slices of the whole drawing: a route found on them is a route
         obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
