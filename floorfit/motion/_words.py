@@ -62,3 +62,19 @@ def word_segments(start: Pose, word: Word, radius: float) -> list[Segment]:
         out.append(seg)
         pose = seg.end
     return out
+
+
+def word_cost(word: Word, radius: float, reverse_factor: float, change_cost: float, arriving_sign: int = 0) -> float:
+    """Search cost (m) of driving ``word``: its length, reverse length times ``reverse_factor``, and
+    ``change_cost`` per change of direction, counting one with the direction ``arriving_sign`` (+1
+    forward, -1 reverse, 0 none) it is driven after. Pieces :func:`word_segments` drops are ignored."""
+    cost, last = 0.0, arriving_sign
+    for length in word.lengths:
+        if abs(length) < _EMPTY:
+            continue
+        sign = 1 if length > 0 else -1
+        cost += abs(length) * radius * (reverse_factor if sign < 0 else 1.0)
+        if last and sign != last:
+            cost += change_cost
+        last = sign
+    return cost

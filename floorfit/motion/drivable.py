@@ -315,6 +315,9 @@ def plan_differential(slices: SliceSet, holonomic_local, *, reverse: bool,
     segs = shortcut_differential(res.segments, free=exact.free, reverse=reverse, deadline=deadline)
     if not reverse and any(sg.direction == "reverse" for sg in segs):
         raise RuntimeError("internal error: a forward-only conversion drove in reverse")
+    if not exact.free(segs):       # the pieces were checked; joining them may round (cannot matter)
+        return DrivePlan(NOT_FOUND, reason="internal: the joined path failed the exact check",
+                         elapsed_s=time.perf_counter() - t0)
     plan = DrivePlan(FOUND, segments=segs, reason="rotate-and-drive along the holonomic route (subdivision, "
                      f"{res.depth} halvings at most), shortened", elapsed_s=time.perf_counter() - t0)
     return finish_plan(plan, exact, limits, start, goal)

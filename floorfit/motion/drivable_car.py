@@ -5,7 +5,7 @@ of radius ``min_turn_radius`` at the reference point, forward and, if allowed, i
 :func:`plan_car` (hybrid A* with Reeds–Shepp or Dubins completions,
 :func:`floorfit.motion.plan_car_path`, on the 2-D heuristic of :func:`reference_grid`, then for a
 car that may reverse the Reeds–Shepp subdivision of the holonomic route,
-:func:`plan_car_subdivision`) and the shortcut pass :func:`shortcut_car_path`. Poses are in the
+:func:`plan_car_subdivision`), both shortened by :func:`floorfit.motion.subdivision.shortcut_car`. Poses are in the
 plan's local frame, metres and degrees (radians inside the searches); limits and answers are
 the :class:`floorfit.motion.drivable.DriveLimits` and :class:`floorfit.motion.drivable.DrivePlan`
 of :mod:`floorfit.motion.drivable`, the collision checks those of :mod:`floorfit.motion.slice_checks`.
@@ -20,22 +20,16 @@ from dataclasses import replace
 import numpy as np
 from scipy import ndimage
 
-from floorfit.cspace.headings import wrap_deg
+from floorfit.cspace.headings import arc_deg
 from floorfit.cspace.raster import fill_polygons
 from floorfit.cspace.slices import SliceSet
 from floorfit.errors import InputError
 from floorfit.motion import (
     OccupancyGrid,
     Segment,
-    direction_changes,
-    dubins_words,
     grid_heuristic,
-    merge_segments,
     plan_car_path,
-    reeds_shepp_words,
-    sample,
 )
-from floorfit.motion._words import word_segments
 from floorfit.motion.drivable import (
     FOUND,
     NOT_FOUND,
@@ -47,24 +41,23 @@ from floorfit.motion.drivable import (
 )
 from floorfit.motion.slice_checks import ExactSliceCheck, SliceMotionCheck, chord_error_m
 from floorfit.motion.subdivision import (
+    arcs_as_turns,
+    differential_steer,
     redo,
     reeds_shepp_steer,
     shortcut_car,
+    shortcut_differential,
     subdivide,
 )
 from floorfit.vehicles.rigid import Vehicle
 
 __all__ = [
+    "car_copy",
     "plan_car",
     "plan_car_subdivision",
     "reference_grid",
-    "shortcut_car_path",
 ]
 
-#: Shortcuts tried per pair of path poses (the best Reeds–Shepp / Dubins words).
-SHORTCUT_WORDS = 3
-#: A car path longer than this many segments is not shortcut (the pass is quadratic).
-SHORTCUT_MAX_SEGMENTS = 40
 #: Largest default cell width of the car search, metres (else a quarter of the turning radius):
 #: coarser cells miss the short moves of a multi-point turn in an aisle.
 DEFAULT_XY_RESOLUTION_M = 0.25
@@ -105,6 +98,7 @@ def plan_car_subdivision(slices: SliceSet, vehicle: Vehicle, holonomic_local, *,
     out: list[Segment] = []
     pose = diff.segments[0].start
     depth = 0
+    checks = 0             # one budget of steering checks for all the turns
     for seg in diff.segments:
         if seg.kind != "rotate":
             out.append(redo(seg, pose))
@@ -112,21 +106,75 @@ def plan_car_subdivision(slices: SliceSet, vehicle: Vehicle, holonomic_local, *,
             continue
         target = (pose[0], pose[1], pose[2] + math.radians(seg.angle_deg))
         res = subdivide([pose, target], steer=steer, free=exact.free, max_depth=limits.max_split_depth,
-                        max_checks=limits.max_steering_checks, deadline=deadline)
+                        max_checks=limits.max_steering_checks - checks, deadline=deadline,
+                        first_free=exact.first_free)
+        checks += res.checks
         if res.segments is None:
             name = {"max_depth": "max_split_depth", "max_checks": "max_steering_checks"}.get(res.limit, res.limit)
+            detail = res.reason if res.limit != "max_checks" else \
+                f"{limits.max_steering_checks} steering checks were used for the turns"
             return DrivePlan(NOT_FOUND, reason=f"no Reeds–Shepp manoeuvre replaces the turn in place at "
-                             f"({pose[0]:.2f}, {pose[1]:.2f}): " + _limit_reason(name, res.reason),
+                             f"({pose[0]:.2f}, {pose[1]:.2f}): " + _limit_reason(name, detail),
                              elapsed_s=time.perf_counter() - t0, limit=name)
         depth = max(depth, res.depth)
         out += res.segments
         pose = out[-1].end
-    segs = shortcut_car(out, free=exact.free, radius_m=radius, reverse_factor=limits.reverse_cost_factor,
-                        change_cost=limits.direction_change_cost_m, deadline=deadline)
+    segs = shortcut_car(out, free=exact.free, maybe_free=exact.maybe_free, radius_m=radius,
+                        reverse_factor=limits.reverse_cost_factor, change_cost=limits.direction_change_cost_m,
+                        deadline=deadline)
+    if not exact.free(segs):       # the pieces were checked; joining them may round (cannot matter)
+        return DrivePlan(NOT_FOUND, reason="internal: the joined path failed the exact check",
+                         elapsed_s=time.perf_counter() - t0)
     plan = DrivePlan(FOUND, segments=segs, reason=f"straights of the holonomic route with Reeds–Shepp manoeuvres "
-                     f"for its turns (subdivision, {depth} halvings at most), shortened",
+                     f"for its turns (subdivision, {depth} halvings at most, {checks} steering checks), shortened",
                      elapsed_s=time.perf_counter() - t0)
     return finish_plan(plan, exact, limits, start, goal)
+
+
+def _car_tools(slices: SliceSet, radius_m: float, limits: DriveLimits, check: ExactSliceCheck):
+    """The sampled check and 2-D heuristic grid of a car of radius ``radius_m`` on these slices, as
+    :func:`plan_car` would build them, kept with the shared exact check (the station pairs of one
+    check then build them once)."""
+    key = ("car tools", radius_m, limits.check_step_m, limits.check_step_deg, limits.path_step_m)
+    if key not in check.shared:
+        sampled = SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg,
+                                   extra_margin_m=chord_error_m(radius_m, limits.path_step_m))
+        check.shared[key] = (sampled, reference_grid(slices, max(0.1, radius_m / 4.0)))
+    return check.shared[key]
+
+
+def car_copy(slices: SliceSet, radius_m: float, start_local, goal_local, *, limits: DriveLimits,
+             check: ExactSliceCheck, deadline: float | None = None) -> DrivePlan | None:
+    """A path of turns in place and straights for a differential base that copies a car's path: hybrid
+    A* for a car of radius ``radius_m`` that may reverse (within ``first_search_expansions``), its arcs
+    made into chords and turns in place (:func:`floorfit.motion.subdivision.arcs_as_turns`), a last
+    rotate-drive-rotate onto the goal, shortcut, checked exactly as a whole. Local poses (x m, y m,
+    heading deg). None when there is none within the limits; ``samples`` are not filled."""
+    budget = None if deadline is None else deadline - time.perf_counter()
+    if budget is not None and budget <= 0.05:
+        return None
+    car = replace(slices.vehicle, mode="car", reverse=True, min_turn_radius_m=radius_m)
+    search = replace(limits, time_limit_s=budget,
+                     max_expansions=min(limits.max_expansions, limits.first_search_expansions))
+    sampled, grid = _car_tools(slices, radius_m, limits, check)
+    cp = plan_car(slices, car, start_local, goal_local, limits=search, exact=check, check=sampled, grid=grid)
+    if not cp.found:
+        return None
+    segs = arcs_as_turns(cp.segments, free=check.free)
+    if segs is None:
+        return None
+    end = segs[-1].end if segs else cp.segments[0].start
+    goal = (goal_local[0], goal_local[1], end[2] + math.radians(float(arc_deg(math.degrees(end[2]), goal_local[2]))))
+    if math.hypot(goal[0] - end[0], goal[1] - end[1]) > 1e-9 or abs(goal[2] - end[2]) > 1e-12:
+        tail = next((c for c in differential_steer(True, [])(end, goal)[:4] if check.free(c)), None)
+        if tail is None:
+            return None
+        segs = segs + tail
+    segs = shortcut_differential(segs, free=check.free, reverse=True, deadline=deadline)
+    if not check.free(segs):        # its pieces were checked; joining them may round
+        return None
+    return DrivePlan(FOUND, segments=segs, reason="turns in place and straights along a car path of radius "
+                     f"{radius_m:.2f} m (fewer direction changes than along the holonomic route)")
 
 
 def reference_grid(slices: SliceSet, cell_m: float) -> OccupancyGrid:
@@ -145,66 +193,6 @@ def reference_grid(slices: SliceSet, cell_m: float) -> OccupancyGrid:
             free |= fill_polygons(comps, x0, y0, cell, nx, ny)
     free = ndimage.binary_dilation(free, structure=np.ones((3, 3), bool))
     return OccupancyGrid(free=free, origin=(x0 + 0.5 * cell, y0 + 0.5 * cell), cell_m=cell)
-
-
-def _path_cost(segments, reverse_factor: float, change_cost: float) -> float:
-    """The car search's cost (m): length, reverse distance times ``reverse_factor``, plus
-    ``change_cost`` per change of direction."""
-    length = sum(sg.length_m * (reverse_factor if sg.direction == "reverse" else 1.0) for sg in segments)
-    return length + change_cost * direction_changes(segments)
-
-
-def shortcut_car_path(segments: list[Segment], *, radius_m: float, reverse: bool, check: SliceMotionCheck,
-                      step_m: float, step_deg: float, reverse_cost_factor: float = 2.0,
-                      direction_change_cost_m: float | None = None) -> list[Segment]:
-    """Improve a car path by replacing runs of segments with analytic curves (local frame, radians).
-
-    From each segment boundary, the farthest later boundary that one of the
-    :data:`SHORTCUT_WORDS` cheapest Reeds–Shepp (``reverse``) or Dubins curves reaches at a
-    lower cost than the run it replaces (the search's cost: length, reverse distance times
-    ``reverse_cost_factor``, ``direction_change_cost_m`` per change of direction, default
-    twice the radius) replaces that run when its samples pass ``check``. The search grid
-    leaves zig-zags and needless cusps; every replacement is checked like the search's
-    own moves, so the collision guarantee holds.
-    """
-    segs = merge_segments(segments)
-    if len(segs) < 2 or len(segs) > SHORTCUT_MAX_SEGMENTS:
-        return segs
-    change = 2.0 * radius_m if direction_change_cost_m is None else float(direction_change_cost_m)
-
-    def cost(run):
-        return _path_cost(run, reverse_cost_factor, change)
-
-    words_of = reeds_shepp_words if reverse else dubins_words
-    poses = [segs[0].start] + [sg.end for sg in segs]
-    n = len(segs)
-    out: list[Segment] = []
-    i = 0
-    while i < n:
-        done = False
-        for j in range(n, i + 1, -1):
-            old = cost(segs[i:j])
-            cands = []
-            for word in words_of(poses[i], poses[j], radius_m):
-                new = word_segments(poses[i], word, radius_m)
-                c = cost(new)
-                if new and c < old - 1e-9:
-                    cands.append((c, new))
-            for _, new in sorted(cands, key=lambda item: item[0])[:SHORTCUT_WORDS]:
-                end = new[-1].end
-                if math.hypot(end[0] - poses[j][0], end[1] - poses[j][1]) > 1e-6 or \
-                        abs(float(wrap_deg(math.degrees(end[2] - poses[j][2])))) > 1e-6:
-                    continue
-                if bool(check.is_free(sample(new, step_m, step_deg)).all()):
-                    out.extend(new)
-                    i, done = j, True
-                    break
-            if done:
-                break
-        if not done:
-            out.append(segs[i])
-            i += 1
-    return merge_segments(out)
 
 
 def _search_limit(reason: str) -> str:
@@ -299,15 +287,9 @@ def _plan_car_search(slices, vehicle, start_local, goal_local, rev, limits, grid
                      elapsed_s=time.perf_counter() - t0, poses_checked=check.poses_checked - before)
     if not plan.found:
         return plan
-    segs = plan.segments
-    if rev:
-        segs = shortcut_car(segs, free=exact.free, radius_m=radius, reverse_factor=limits.reverse_cost_factor,
-                            change_cost=limits.direction_change_cost_m, deadline=deadline)
-    else:
-        segs = shortcut_car_path(segs, radius_m=radius, reverse=rev, check=check,
-                                 step_m=limits.check_step_m, step_deg=limits.check_step_deg,
-                                 reverse_cost_factor=limits.reverse_cost_factor,
-                                 direction_change_cost_m=limits.direction_change_cost_m)
+    segs = shortcut_car(plan.segments, free=exact.free, maybe_free=exact.maybe_free, radius_m=radius, reverse=rev,
+                        reverse_factor=limits.reverse_cost_factor, change_cost=limits.direction_change_cost_m,
+                        deadline=deadline)
     if not exact.free(segs):       # the sampled checks are sound, so this does not happen
         return DrivePlan(NOT_FOUND, reason="internal: a searched path failed the exact check",
                          expansions=result.expansions, elapsed_s=time.perf_counter() - t0)

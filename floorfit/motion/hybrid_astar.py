@@ -33,11 +33,11 @@ import numpy as np
 
 from floorfit.errors import InputError
 from floorfit.motion._checks import positive_number, whole_number
-from floorfit.motion._words import Word, word_segments
+from floorfit.motion._words import word_cost, word_segments
 from floorfit.motion.dubins import dubins_length, dubins_words
 from floorfit.motion.grid_heuristic import OccupancyGrid, grid_heuristic
 from floorfit.motion.poses import as_pose, from_local
-from floorfit.motion.reeds_shepp import reeds_shepp_length, reeds_shepp_words
+from floorfit.motion.reeds_shepp import reeds_shepp_cheapest, reeds_shepp_length
 from floorfit.motion.sampling import sample
 from floorfit.motion.segments import Segment, arc, merge_segments, straight
 
@@ -136,21 +136,6 @@ def _check_bounds(bounds) -> tuple[float, float, float, float]:
     return xmin, ymin, xmax, ymax
 
 
-def _word_cost(word: Word, radius: float, arriving_sign: int, reverse_factor: float,
-               change_cost: float) -> float:
-    """Search cost (m) of driving ``word`` after arriving in direction ``arriving_sign``."""
-    cost, last = 0.0, arriving_sign
-    for length in word.lengths:
-        if abs(length) < 1e-10:
-            continue
-        sign = 1 if length > 0 else -1
-        cost += abs(length) * radius * (reverse_factor if sign < 0 else 1.0)
-        if last and sign != last:
-            cost += change_cost
-        last = sign
-    return cost
-
-
 @dataclass(frozen=True)
 class _Settings:
     """Checked arguments of :func:`plan_car_path` (m, rad)."""
@@ -239,7 +224,6 @@ class _Search:
         self.check = check
         self.h2d = h2d
         self.nh_length = reeds_shepp_length if s.reverse else dubins_length
-        self.words_of = reeds_shepp_words if s.reverse else dubins_words
         # Primitives long enough to leave the cell: even on an arc the chord
         # (L sin(L/2R) / (L/2R)) exceeds the cell diagonal.
         diagonal = math.sqrt(2.0) * s.res
@@ -293,15 +277,19 @@ class _Search:
         """The cheapest free analytic path from ``node`` to the goal, with its cost."""
         s = self.s
 
-        def cost(word: Word) -> float:
-            return _word_cost(word, s.radius, self.signs[node], s.reverse_factor, s.change_cost)
-
-        words = sorted(self.words_of(self.poses[node], s.goal, s.radius), key=cost)
-        for word in words[:s.analytic_tries]:
-            segs = word_segments(self.poses[node], word, s.radius)
+        pose = self.poses[node]
+        if s.reverse:
+            words = reeds_shepp_cheapest(pose, [s.goal], s.radius, reverse_factor=s.reverse_factor,
+                                         change_cost=s.change_cost, arriving_sign=self.signs[node],
+                                         count=s.analytic_tries)[0]
+        else:
+            words = sorted(((word_cost(w, s.radius, s.reverse_factor, s.change_cost, self.signs[node]), w)
+                            for w in dubins_words(pose, s.goal, s.radius)), key=lambda item: item[0])
+        for cost, word in words[:s.analytic_tries]:
+            segs = word_segments(pose, word, s.radius)
             pts = sample(segs, s.step_m, s.step_deg)
             if len(pts) == 0 or self.check(pts).all():
-                return segs, cost(word)
+                return segs, cost
         return None
 
     def children(self, node: int, closed: set, best_cost: dict) -> list[tuple]:

@@ -27,12 +27,14 @@ import math
 
 import numpy as np
 
-from floorfit.motion._words import Word, check_radius, normalised_goal, word_segments
+from floorfit.motion._words import _EMPTY, Word, check_radius, normalised_goal, word_segments
 from floorfit.motion.poses import as_pose
 from floorfit.motion.segments import Segment
 
 __all__ = [
+    "reeds_shepp_cheapest",
     "reeds_shepp_length",
+    "reeds_shepp_table",
     "reeds_shepp_words",
     "reeds_shepp_path",
 ]
@@ -223,6 +225,70 @@ def reeds_shepp_length(start, goal, radius: float):
         np.minimum(best, _totals(lengths, valid).min(axis=0), out=best)
     best *= r
     return float(best[0]) if rel.ndim == 1 else best
+
+
+def reeds_shepp_table(start, goals, radius: float) -> tuple[list[str], np.ndarray, np.ndarray]:
+    """Every Reeds-Shepp candidate word from one start to many goals, as arrays (vectorised
+    :func:`reeds_shepp_words`).
+
+    ``start`` (3,) and ``goals`` (N, 3) are poses (x m, y m, heading rad). Returns
+    ``(letters, lengths, valid)``: W words, their signed piece lengths in turning radii
+    (W, N, 5), zero past a word's last piece, and (W, N) whether the word reaches that goal.
+    A word may be listed more than once (symmetric formulas can give the same path).
+    """
+    r = check_radius(radius)
+    rel = normalised_goal(as_pose(start, "start"), np.asarray(goals, dtype=float).reshape(-1, 3), r)
+    letters: list[str] = []
+    lengths, valid = [], []
+    for words, pieces, ok in _candidates(rel[:, 0], rel[:, 1], rel[:, 2]):
+        block = np.zeros((len(words), len(rel), 5))
+        block[:, :, :len(pieces)] = np.stack(pieces, axis=-1)
+        total = np.abs(block).sum(axis=-1)
+        letters += words
+        lengths.append(block)
+        valid.append(ok & np.isfinite(total))
+    return letters, np.concatenate(lengths), np.concatenate(valid)
+
+
+def reeds_shepp_cheapest(start, goals, radius: float, *, reverse_factor: float = 1.0, change_cost: float = 0.0,
+                         arriving_sign: int = 0, count: int = 3, below=None) -> list[list[tuple[float, Word]]]:
+    """For each goal, the ``count`` cheapest distinct Reeds-Shepp words from ``start`` by a search cost,
+    cheapest first, with their costs (m); all goals in one vectorised evaluation.
+
+    The cost is :func:`floorfit.motion._words.word_cost`: length, reverse length times
+    ``reverse_factor``, ``change_cost`` per change of direction (counting one with
+    ``arriving_sign``). ``below``: per goal, only words costing less than this (m).
+    With the defaults the first word is the shortest path.
+    """
+    r = check_radius(radius)
+    goals = np.asarray(goals, dtype=float).reshape(-1, 3)
+    letters, lengths, valid = reeds_shepp_table(start, goals, r)
+    sign = np.where(np.abs(lengths) >= _EMPTY, np.sign(lengths), 0.0)
+    cost = (np.abs(lengths) * r * np.where(sign < 0, reverse_factor, 1.0)).sum(axis=-1)
+    last = np.full(sign.shape[:2], float(arriving_sign))
+    for k in range(sign.shape[-1]):
+        s = sign[..., k]
+        cost += change_cost * ((s != 0) & (last != 0) & (s != last))
+        last = np.where(s != 0, s, last)
+    ok = valid & np.isfinite(cost)
+    if below is not None:
+        ok &= cost < np.broadcast_to(np.asarray(below, dtype=float), (len(goals),))[None, :]
+    cost = np.where(ok, cost, np.inf)
+    out = []
+    for n in range(len(goals)):
+        row: list[tuple[float, Word]] = []
+        seen: set = set()
+        total = np.abs(lengths[:, n]).sum(axis=-1)
+        for w in np.lexsort((total, cost[:, n]))[:int(ok[:, n].sum())]:      # ties: shorter first
+            lens = tuple(float(v) for v in lengths[w, n, :len(letters[w])])
+            key = (letters[w], tuple(round(v, 9) for v in lens))
+            if key not in seen:          # symmetric formulas may give the same word twice
+                seen.add(key)
+                row.append((float(cost[w, n]), Word(letters[w], lens, float(total[w]) * r)))
+                if len(row) == count:
+                    break
+        out.append(row)
+    return out
 
 
 def reeds_shepp_words(start, goal, radius: float) -> list[Word]:

@@ -42,8 +42,8 @@ from floorfit.motion.drivable import (
     plan_differential,
     segment_dicts,
 )
-from floorfit.motion.drivable_car import plan_car, reference_grid
-from floorfit.motion.slice_checks import ExactSliceCheck, SliceMotionCheck, chord_error_m
+from floorfit.motion.drivable_car import car_copy, plan_car
+from floorfit.motion.slice_checks import ExactSliceCheck, chord_error_m
 from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import Vehicle
 
@@ -317,7 +317,7 @@ def _convert(slices, G, s_loc, g_loc, reverse, limits, check, clearance, deadlin
 
 def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray | None, s_loc, g_loc,
                       *, reverse: bool, limits: DriveLimits, check=None, deadline: float | None = None,
-                      accept_changes: int | None = None):
+                      accept_changes: int | None = None, copy_radius_below: float | None = None):
     """Rotate-and-drive plan for a differential base (local frame; poses in degrees).
 
     Subdivision of the holonomic route recomputed with a clearance of a few centimetres
@@ -327,7 +327,8 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
     :class:`floorfit.motion.drivable.DrivePlan`. ``check``: a shared
     :class:`floorfit.motion.slice_checks.ExactSliceCheck` (optional). ``accept_changes``: a path found
     with at most this many direction changes is returned as it is, without the search for one with
-    fewer (a manoeuvre budget only asks whether the vehicle stays within it).
+    fewer (a manoeuvre budget only asks whether the vehicle stays within it). ``copy_radius_below``:
+    only car paths of a tighter turning radius (m) are copied (a car whose own search failed).
     """
     import time
 
@@ -342,66 +343,34 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
     dp = _convert(slices, G, s_loc, g_loc, reverse, limits, check, clearance, deadline)
     good_enough = accept_changes is not None and dp is not None and dp.direction_changes <= accept_changes
     if dp is not None and dp.found and reverse and dp.direction_changes > 0 and not good_enough:
-        dp = _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline)
+        dp = _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline, copy_radius_below)
     if dp is not None:
         dp.elapsed_s = time.perf_counter() - t0
     return dp
 
 
-#: Turning radius of the car path a differential base may copy, in vehicle widths (at least 0.5 m).
-VIRTUAL_CAR_RADIUS_WIDTHS = 1.5
+#: Turning radii of the car paths a differential base may copy, in vehicle widths (each at least 0.5 m),
+#: tried in this order: a tight one finds short manoeuvres, a wider one covers long routes within the
+#: search's expansions.
+VIRTUAL_CAR_RADIUS_WIDTHS = (0.75, 1.5)
 
 
-def _car_tools(slices, radius_m: float, limits: DriveLimits, check: ExactSliceCheck):
-    """The sampled check and 2-D heuristic grid of a car of radius ``radius_m`` on these slices, as
-    :func:`floorfit.motion.drivable_car.plan_car` would build them, kept with the shared exact check
-    (the station pairs of one check then build them once)."""
-    key = ("car tools", radius_m, limits.check_step_m, limits.check_step_deg, limits.path_step_m)
-    if key not in check.shared:
-        sampled = SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg,
-                                   extra_margin_m=chord_error_m(radius_m, limits.path_step_m))
-        check.shared[key] = (sampled, reference_grid(slices, max(0.1, radius_m / 4.0)))
-    return check.shared[key]
+def _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline, radius_below=None):
+    """A differential path with direction changes may do better by copying a car's path
+    (:func:`floorfit.motion.drivable_car.car_copy`, for the turning radii of
+    :data:`VIRTUAL_CAR_RADIUS_WIDTHS` in turn until a copy has none); a copy is kept when it has
+    fewer direction changes, or as many and a shorter length."""
+    from floorfit.motion.drivable import finish_plan
 
-
-def _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline):
-    """A differential path with direction changes may do better by copying a car's path: hybrid A*
-    for a car of a small turning radius (within ``first_search_expansions``), its arcs made into chords and
-    turns in place (:func:`floorfit.motion.subdivision.arcs_as_turns`), a last rotate-drive-rotate
-    onto the goal; kept when it has fewer direction changes, or as many and a shorter length."""
-    import time
-    from dataclasses import replace
-
-    from floorfit.motion.drivable import FOUND, DrivePlan, finish_plan
-    from floorfit.motion.subdivision import arcs_as_turns, differential_steer, shortcut_differential
-
-    budget = None if deadline is None else deadline - time.perf_counter()
-    if budget is not None and budget <= 0.05:
-        return dp
-    veh = slices.vehicle
-    car = replace(veh, mode="car", reverse=True,
-                  min_turn_radius_m=max(0.5, VIRTUAL_CAR_RADIUS_WIDTHS * veh.width_m))
-    search = replace(limits, time_limit_s=budget,
-                     max_expansions=min(limits.max_expansions, limits.first_search_expansions))
-    sampled, grid = _car_tools(slices, car.min_turn_radius_m, limits, check)
-    cp = plan_car(slices, car, s_loc, g_loc, limits=search, exact=check, check=sampled, grid=grid)
-    if not cp.found:
-        return dp
-    segs = arcs_as_turns(cp.segments, free=check.free)
-    if segs is None:
-        return dp
-    end = segs[-1].end if segs else cp.segments[0].start
-    goal = (g_loc[0], g_loc[1], end[2] + math.radians(float(arc_deg(math.degrees(end[2]), g_loc[2]))))
-    if math.hypot(goal[0] - end[0], goal[1] - end[1]) > 1e-9 or abs(goal[2] - end[2]) > 1e-12:
-        tail = next((c for c in differential_steer(True, [])(end, goal)[:4] if check.free(c)), None)
-        if tail is None:
-            return dp
-        segs = segs + tail
-    segs = shortcut_differential(segs, free=check.free, reverse=True, deadline=deadline)
-    alt = DrivePlan(FOUND, segments=segs, reason="turns in place and straights along a car path of radius "
-                    f"{car.min_turn_radius_m:.2f} m (fewer direction changes than along the holonomic route)")
-    if (alt.direction_changes, alt.length_m) < (dp.direction_changes, dp.length_m):
-        return finish_plan(alt, check, limits, s_loc, g_loc)
+    width = slices.vehicle.width_m
+    for radius in dict.fromkeys(max(0.5, w * width) for w in VIRTUAL_CAR_RADIUS_WIDTHS):
+        if dp.direction_changes == 0:
+            break
+        if radius_below is not None and radius >= radius_below:
+            continue
+        alt = car_copy(slices, radius, s_loc, g_loc, limits=limits, check=check, deadline=deadline)
+        if alt is not None and (alt.direction_changes, alt.length_m) < (dp.direction_changes, dp.length_m):
+            dp = finish_plan(alt, check, limits, s_loc, g_loc)
     return dp
 
 
@@ -423,7 +392,7 @@ def _drive(result: RouteResult, plan: Plan, vehicle: Vehicle, slices: SliceSet, 
 
         def straights_and_turns(deadline):
             return differential_plan(slices, G, holonomic_local, s_loc, g_loc, reverse=True, limits=limits,
-                                     check=exact, deadline=deadline)
+                                     check=exact, deadline=deadline, copy_radius_below=vehicle.min_turn_radius_m)
 
         dp = plan_car(slices, vehicle, s_loc, g_loc, limits=limits, differential=straights_and_turns, exact=exact)
         radius = vehicle.min_turn_radius_m

@@ -37,13 +37,23 @@ import shapely
 
 from floorfit.cspace.headings import arc_deg
 from floorfit.cspace.slices import SliceSet
-from floorfit.motion import Segment
+from floorfit.motion import Segment, sample
 
 __all__ = [
+    "PRETEST_SLACK_M",
+    "PRETEST_STEP_DEG",
+    "PRETEST_STEP_M",
     "ExactSliceCheck",
     "SliceMotionCheck",
     "chord_error_m",
 ]
+
+#: Sample spacing (m of track, degrees) of the exact check's cheap pre-test.
+PRETEST_STEP_M = 0.1
+PRETEST_STEP_DEG = 5.0
+#: The pre-test accepts samples this far (m) outside the free space: rounding never makes it
+#: reject a piece the exact test accepts.
+PRETEST_SLACK_M = 1e-6
 
 
 def chord_error_m(radius_m: float | None, step_m: float) -> float:
@@ -340,10 +350,62 @@ class ExactSliceCheck:
             by_cell.setdefault(k, []).append(g)
         return all(self._covered(k, gs) for k, gs in by_cell.items())
 
+    def maybe_free(self, poses_rad, owner, count: int) -> np.ndarray:
+        """A cheap necessary condition of :meth:`free`, for ``count`` candidate paths at once.
+
+        ``poses_rad`` (N, 3): local poses (x m, y m, heading rad) sampled along the candidates,
+        ``owner`` (N,): the candidate of each pose. False for a candidate with a pose that lies
+        outside its own cell's free space by more than :data:`PRETEST_SLACK_M` (every pose of a piece
+        :meth:`free` accepts lies in it; the slack absorbs rounding where a path touches the
+        boundary), True otherwise."""
+        p = np.asarray(poses_rad, dtype=float).reshape(-1, 3)
+        owner = np.asarray(owner, dtype=int)
+        ok = np.ones(count, dtype=bool)
+        if not len(p):
+            return ok
+        ks = self._cell_of(np.degrees(p[:, 2]))
+        pts = shapely.points(p[:, :2])
+        inside = np.zeros(len(p), dtype=bool)
+        for k in np.unique(ks):
+            sel = np.flatnonzero(ks == k)
+            self._comps(int(k))                       # prepared
+            hit = self.slices.tree(int(k)).query(pts[sel], predicate="intersects")[0]
+            inside[sel[hit]] = True
+        # each candidate with poses outside: is its first such pose farther than the slack?
+        out = np.flatnonzero(~inside)
+        firsts = out[np.unique(owner[out], return_index=True)[1]]
+        for k in np.unique(ks[firsts]):
+            sel = firsts[ks[firsts] == k]
+            near = np.zeros(len(sel), dtype=bool)
+            near[self.slices.tree(int(k)).query(pts[sel], predicate="dwithin", distance=PRETEST_SLACK_M)[0]] = True
+            ok[owner[sel[~near]]] = False
+        return ok
+
+    def near_free(self, candidates) -> np.ndarray:
+        """:meth:`maybe_free` of candidate paths (lists of segments), sampled every
+        :data:`PRETEST_STEP_M` / :data:`PRETEST_STEP_DEG`."""
+        parts = [sample(c, PRETEST_STEP_M, PRETEST_STEP_DEG) for c in candidates]
+        sizes = [len(q) for q in parts]
+        if not sum(sizes):
+            return np.ones(len(parts), dtype=bool)
+        return self.maybe_free(np.concatenate(parts), np.repeat(np.arange(len(parts)), sizes), len(parts))
+
     def free(self, segments) -> bool:
-        """True when every segment (poses in radians, local frame) is clear."""
+        """True when every segment (poses in radians, local frame) is clear (one check)."""
         self.checks += 1
         return all(self.segment_free(s) for s in segments)
+
+    def first_free(self, candidates: list) -> int | None:
+        """Index of the first free one of the candidate paths (lists of segments), None when none is
+        (one check each): the batched pre-test :meth:`near_free` rejects most colliding ones, the exact
+        test decides. Worth it where the exact test is dear and the pieces short (Reeds–Shepp curves);
+        for long straights :meth:`free` alone is cheaper."""
+        near = self.near_free(candidates) if candidates else []
+        for i, segs in enumerate(candidates):
+            self.checks += 1
+            if near[i] and all(self.segment_free(s) for s in segs):
+                return i
+        return None
 
     def samples_inside(self, poses_deg) -> np.ndarray:
         """True where each pose lies in its own slice's free space: a consistency check."""

@@ -41,9 +41,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from floorfit.motion._words import word_segments
-from floorfit.motion.poses import wrap_angle
-from floorfit.motion.reeds_shepp import reeds_shepp_words
+from floorfit.motion._words import Word, word_cost, word_segments
+from floorfit.motion.dubins import dubins_length, dubins_words
+from floorfit.motion.poses import relative_pose, wrap_angle
+from floorfit.motion.reeds_shepp import reeds_shepp_cheapest, reeds_shepp_length, reeds_shepp_words
 from floorfit.motion.segments import (
     Segment,
     arc,
@@ -68,6 +69,11 @@ __all__ = [
 _SAME = 1e-9
 Free = Callable[[list[Segment]], bool]
 Steer = Callable[[tuple, tuple], list[list[Segment]]]
+FirstFree = Callable[[list[list[Segment]]], "int | None"]
+MaybeFree = Callable[[np.ndarray, np.ndarray, int], np.ndarray]
+#: Sample spacing (m, degrees) of the candidates' pre-test in :func:`shortcut_car`.
+_PRETEST_STEP_M = 0.1
+_PRETEST_STEP_DEG = 5.0
 
 
 @dataclass
@@ -166,11 +172,19 @@ def differential_steer(reverse: bool, tilts: Sequence[float]) -> Steer:
 
 
 def reeds_shepp_steer(radius_m: float, words: int = 3) -> Steer:
-    """The ``words`` shortest Reeds–Shepp curves of radius ``radius_m`` (m)."""
+    """The ``words`` shortest Reeds–Shepp curves of radius ``radius_m`` (m).
+
+    The words depend only on the goal seen from the start; they are kept per relative pose
+    (rounded to 1e-9 m and rad), since a subdivision halves many steps alike (every half of a
+    turn in place is the same turn)."""
+    known: dict[tuple, list] = {}
 
     def steer(a, b) -> list[list[Segment]]:
+        key = tuple(np.round(relative_pose(a, b), 9).tolist())
+        if key not in known:
+            known[key] = reeds_shepp_words(a, b, radius_m)[:words]
         out = []
-        for word in reeds_shepp_words(a, b, radius_m)[:words]:
+        for word in known[key]:
             segs = word_segments(a, word, radius_m)
             out.append(segs if segs else [straight(a, 0.0)])
         return out
@@ -181,32 +195,39 @@ def reeds_shepp_steer(radius_m: float, words: int = 3) -> Steer:
 # --- subdivision ------------------------------------------------------------------------
 
 def subdivide(waypoints, *, steer: Steer, free: Free, max_depth: int = 16, max_checks: int = 100_000,
-              deadline: float | None = None) -> SubdivisionResult:
+              deadline: float | None = None, first_free: FirstFree | None = None) -> SubdivisionResult:
     """Steer along a holonomic path, splitting steps in halves where the steered path collides.
 
     ``waypoints``: (N, 3) poses (x m, y m, heading rad) of a collision-free holonomic path
     (linear in x, y and heading between waypoints, heading the shorter way round).
-    ``deadline``: a :func:`time.perf_counter` value after which it stops.
+    ``deadline``: a :func:`time.perf_counter` value after which it stops. ``first_free``: the index
+    of the first free one of several candidates (as ``free`` would find it, in one batch; for
+    example :meth:`floorfit.motion.slice_checks.ExactSliceCheck.first_free`). Every candidate tried
+    counts as one of ``max_checks``.
     """
     pts = np.array(waypoints, dtype=float).reshape(-1, 3)
     pts[1:, 2] = pts[0, 2] + np.cumsum(wrap_angle(np.diff(pts[:, 2])))
     state = {"checks": 0, "depth": 0}
 
-    def check(segs) -> bool:
-        state["checks"] += 1
-        if state["checks"] > max_checks:
-            raise _Limit("max_checks")
+    def first_of(cands) -> list[Segment] | None:
         if deadline is not None and time.perf_counter() > deadline:
             raise _Limit("time_limit_s")
-        return bool(free(segs))
+        cands = cands[:max(0, max_checks - state["checks"])]
+        if first_free is not None:
+            i = first_free(cands) if cands else None
+        else:
+            i = next((k for k, c in enumerate(cands) if free(c)), None)
+        state["checks"] += len(cands) if i is None else i + 1
+        if i is None and state["checks"] >= max_checks:
+            raise _Limit("max_checks")
+        return None if i is None else cands[i]
 
     def follow(a, b, depth) -> list[Segment]:
-        for cand in steer(a, b):
-            end = cand[-1].end
-            if math.hypot(end[0] - b[0], end[1] - b[1]) > 1e-6 or abs(end[2] - b[2]) > 1e-6:
-                continue
-            if check(cand):
-                return cand
+        cands = [c for c in steer(a, b)
+                 if math.hypot(c[-1].end[0] - b[0], c[-1].end[1] - b[1]) <= 1e-6 and abs(c[-1].end[2] - b[2]) <= 1e-6]
+        found = first_of(cands)
+        if found is not None:
+            return found
         if depth >= max_depth:
             raise _Limit("max_depth")
         state["depth"] = max(state["depth"], depth + 1)
@@ -358,48 +379,146 @@ def car_cost(segments: Sequence[Segment], reverse_factor: float, change_cost: fl
     return length + change_cost * direction_changes(segments)
 
 
-def _car_shortcut_from(segs, poses, i, *, free, radius_m, reverse_factor, change, words):
-    """The farthest boundary j > i + 1 and the free, cheaper Reeds–Shepp curve from ``poses[i]`` to it."""
-    n = len(segs)
-    for j in _targets(i, n):
-        if j == i + 1:
-            return None
-        old = car_cost(segs[i:j], reverse_factor, change)
-        cands = []
-        for word in reeds_shepp_words(poses[i], poses[j], radius_m)[:8]:
-            new = word_segments(poses[i], word, radius_m)
-            c = car_cost(new, reverse_factor, change)
-            if new and c < old - 1e-9:
-                cands.append((c, new))
-        for _, new in sorted(cands, key=lambda item: item[0])[:words]:
-            end = new[-1].end
-            if math.hypot(end[0] - poses[j][0], end[1] - poses[j][1]) > 1e-6 or \
-                    abs(float(wrap_angle(end[2] - poses[j][2]))) > 1e-6:
-                continue
-            if free(new):
-                return j, new
-    return None
+class _RunCosts:
+    """:func:`car_cost` of every run ``segs[i:j]`` in constant time (prefix sums)."""
+
+    def __init__(self, segs: Sequence[Segment], reverse_factor: float, change: float):
+        n = len(segs)
+        self.change = change
+        self.length = np.concatenate([[0.0], np.cumsum(
+            [s.length_m * (reverse_factor if s.direction == "reverse" else 1.0) for s in segs])])
+        moving = [s.kind != "rotate" and s.length_m > 0 for s in segs]
+        flip = np.zeros(n)
+        last = None
+        for k, s in enumerate(segs):
+            if moving[k]:
+                flip[k] = 1.0 if last is not None and s.direction != last else 0.0
+                last = s.direction
+        self.flips = np.concatenate([[0.0], np.cumsum(flip)])
+        # first moving segment at or after each index (n when none)
+        self.next_moving = np.full(n + 1, n)
+        for k in range(n - 1, -1, -1):
+            self.next_moving[k] = k if moving[k] else self.next_moving[k + 1]
+        self.flip = flip
+
+    def __call__(self, i: int, j: int) -> float:
+        changes = self.flips[j] - self.flips[i]
+        first = self.next_moving[i]
+        if first < j:
+            changes -= self.flip[first]        # its change is with a segment before the run
+        return float(self.length[j] - self.length[i] + self.change * changes)
+
+
+def _cheaper_words(start, goals, olds, radius_m: float, reverse_factor: float, change: float, reverse: bool,
+                   words: int) -> list[list[Word]]:
+    """For each goal, at most ``words`` Reeds–Shepp (``reverse``) or Dubins words from ``start`` that cost
+    less (:func:`car_cost`) than its ``olds`` entry, cheapest first."""
+    below = np.asarray(olds, dtype=float) - 1e-9
+    if reverse:
+        rows = reeds_shepp_cheapest(start, goals, radius_m, reverse_factor=reverse_factor, change_cost=change,
+                                    count=words, below=below)
+        return [[w for _, w in row] for row in rows]
+    out = []
+    for g, limit in zip(goals, below):
+        costs = sorted(((word_cost(w, radius_m, reverse_factor, change), w) for w in dubins_words(start, g, radius_m)),
+                       key=lambda item: item[0])
+        out.append([w for c, w in costs if c < limit][:words])
+    return out
+
+
+def word_poses(start, words: Sequence[Word], radius_m: float, step_m: float, step_deg: float
+               ) -> tuple[np.ndarray, np.ndarray]:
+    """Poses (x m, y m, heading rad) along each of several turning words driven from ``start``, at
+    most ``step_m`` / ``step_deg`` apart within each piece (and at every piece's end), without building
+    segments; and for each pose the index of its word. Vectorised over words and pieces."""
+    c = len(words)
+    lens = np.zeros((c, 5))
+    steer = np.zeros((c, 5))
+    for w, word in enumerate(words):
+        lens[w, :len(word.lengths)] = word.lengths
+        steer[w, :len(word.letters)] = [{"L": 1.0, "R": -1.0, "S": 0.0}[ch] for ch in word.letters]
+    lens[np.abs(lens) < 1e-10] = 0.0                      # the pieces word_segments drops
+    d = lens * radius_m                                   # signed distance (m)
+    turn = steer * lens                                   # heading change (rad)
+    # start pose of every piece
+    x0 = np.empty((c, 5))
+    y0 = np.empty((c, 5))
+    h0 = np.empty((c, 5))
+    x, y, h = (np.full(c, float(v)) for v in start)
+    for k in range(5):
+        x0[:, k], y0[:, k], h0[:, k] = x, y, h
+        arc_ = steer[:, k] != 0
+        k_r = steer[:, k] * radius_m
+        h1 = h + turn[:, k]
+        x = np.where(arc_, x + k_r * (np.sin(h1) - np.sin(h)), x + d[:, k] * np.cos(h))
+        y = np.where(arc_, y - k_r * (np.cos(h1) - np.cos(h)), y + d[:, k] * np.sin(h))
+        h = h1
+    n = np.where(d != 0, np.maximum(np.maximum(np.ceil(np.abs(d) / step_m - 1e-9),
+                                                np.ceil(np.degrees(np.abs(turn)) / step_deg - 1e-9)), 1), 0)
+    n = n.astype(int).ravel()
+    piece = np.repeat(np.arange(c * 5), n)
+    t = (np.arange(n.sum()) - np.repeat(np.cumsum(n) - n, n) + 1) / np.repeat(np.maximum(n, 1), n)
+    px, py, ph = x0.ravel()[piece], y0.ravel()[piece], h0.ravel()[piece]
+    ps, pd, pt = steer.ravel()[piece], d.ravel()[piece], turn.ravel()[piece]
+    hh = ph + pt * t
+    k_r = ps * radius_m
+    out = np.column_stack([
+        np.where(ps != 0, px + k_r * (np.sin(hh) - np.sin(ph)), px + pd * t * np.cos(ph)),
+        np.where(ps != 0, py - k_r * (np.cos(hh) - np.cos(ph)), py + pd * t * np.sin(ph)),
+        hh])
+    return np.vstack([np.tile(np.asarray(start, dtype=float), (c, 1)), out]), \
+        np.concatenate([np.arange(c), piece // 5])
+
+
+def _car_hops(segs, poses, i, run_cost, *, radius_m, reverse_factor, change, words, reverse):
+    """Candidate hops from ``poses[i]``, in the order to try them: (j, word) for the farthest boundaries
+    j > i + 1 first (:func:`_targets`), at each the ``words`` cheapest Reeds–Shepp (``reverse``) or
+    Dubins words that cost less than the run ``segs[i:j]`` they would replace."""
+    js = [j for j in _targets(i, len(segs)) if j > i + 1]
+    if not js:
+        return []
+    olds = [run_cost(i, j) for j in js]
+    # no curve costs less than the shortest one's length: only the targets it leaves open
+    ends = np.array([poses[j] for j in js], dtype=float)
+    shortest = np.atleast_1d((reeds_shepp_length if reverse else dubins_length)(poses[i], ends, radius_m))
+    open_ = [k for k, (low, old) in enumerate(zip(shortest, olds)) if low < old - 1e-9]
+    if not open_:
+        return []
+    table = _cheaper_words(poses[i], ends[open_], [olds[k] for k in open_], radius_m, reverse_factor, change,
+                           reverse, words)
+    return [(js[k], word) for k, row in zip(open_, table) for word in row]
 
 
 def shortcut_car(segments: list[Segment], *, free: Free, radius_m: float, reverse_factor: float = 2.0,
                  change_cost: float | None = None, words: int = 3, passes: int = 2,
-                 deadline: float | None = None) -> list[Segment]:
-    """Replace runs of a car path by one of the ``words`` cheapest Reeds–Shepp curves between their
-    end poses when that costs less (:func:`car_cost`) and is free; farthest first, ``passes`` times."""
+                 deadline: float | None = None, maybe_free: MaybeFree | None = None,
+                 reverse: bool = True) -> list[Segment]:
+    """Replace runs of a car path by one of the ``words`` cheapest Reeds–Shepp (``reverse``) or
+    Dubins curves between their end poses when that costs less (:func:`car_cost`) and is free.
+
+    Greedy farthest hops: from each boundary the farthest later one that such a curve reaches
+    (the next eight boundaries, then every doubling, :func:`_targets`), ``passes`` times; the
+    work per boundary is logarithmic in the path's length, so long paths are shortened too.
+    ``maybe_free(poses, owner, count) -> bool array``: a cheap necessary condition of ``free`` for
+    ``count`` candidates sampled at ``poses`` (``owner``: each pose's candidate), such as
+    :meth:`floorfit.motion.slice_checks.ExactSliceCheck.maybe_free`; the candidates of one boundary are
+    sampled and pre-tested with it at once, ``free`` decides.
+    """
     change = 2.0 * radius_m if change_cost is None else float(change_cost)
     segs = merge_segments(segments)
     for _ in range(passes):
         if len(segs) < 2:
             break
         poses = [segs[0].start] + [s.end for s in segs]
+        run_cost = _RunCosts(segs, reverse_factor, change)
         out: list[Segment] = []
         i = 0
         improved = False
         while i < len(segs):
             hop = None
             if deadline is None or time.perf_counter() < deadline:
-                hop = _car_shortcut_from(segs, poses, i, free=free, radius_m=radius_m,
-                                         reverse_factor=reverse_factor, change=change, words=words)
+                hop = _first_hop(segs, poses, i, run_cost, free=free, maybe_free=maybe_free, radius_m=radius_m,
+                                 reverse_factor=reverse_factor, change=change, words=words, reverse=reverse)
             if hop is not None:
                 i, new = hop
                 out += new
@@ -411,3 +530,26 @@ def shortcut_car(segments: list[Segment], *, free: Free, radius_m: float, revers
         if not improved:
             break
     return segs
+
+
+def _first_hop(segs, poses, i, run_cost, *, free, maybe_free, radius_m, reverse_factor, change, words, reverse):
+    """The first free hop (j, segments) of :func:`_car_hops`, None when none is free."""
+    cands = _car_hops(segs, poses, i, run_cost, radius_m=radius_m, reverse_factor=reverse_factor,
+                      change=change, words=words, reverse=reverse)
+    if not cands:
+        return None
+    ok = np.ones(len(cands), dtype=bool)
+    if maybe_free is not None:
+        pts, owner = word_poses(poses[i], [w for _, w in cands], radius_m, _PRETEST_STEP_M, _PRETEST_STEP_DEG)
+        ok = maybe_free(pts, owner, len(cands))
+    for k, (j, word) in enumerate(cands):
+        if not ok[k]:
+            continue
+        new = word_segments(poses[i], word, radius_m)
+        end = new[-1].end if new else None
+        if end is None or math.hypot(end[0] - poses[j][0], end[1] - poses[j][1]) > 1e-6 or \
+                abs(float(wrap_angle(end[2] - poses[j][2]))) > 1e-6:
+            continue
+        if free(new):
+            return j, new
+    return None
