@@ -8,6 +8,7 @@ connects the rooms; within the default budget of 2 direction changes the robot d
 """
 
 import json
+import time
 from dataclasses import replace
 
 import ezdxf
@@ -123,6 +124,35 @@ def test_check_rejects_the_sideways_doorway_within_the_default_budget_and_accept
                   heading_step_deg=STEP)
     assert r.passed and r.settings["max_direction_changes"] == 1000
     assert not [f for f in r.findings if f.kind == "maneuver"]
+
+
+@pytest.mark.parametrize("case", ["sideways differential", "car with a three-point turn"])
+def test_budget_verdicts_do_not_depend_on_the_clock(monkeypatch, case):
+    # every limit that decides a verdict is a count (expansions, steering checks, split depth): on a
+    # machine so loaded that each clock reading is 1000 s after the last, the findings are the same.
+    # The wide robot's drive is over the budget; the car needs a search of some 170 expansions and
+    # two direction changes (a wall-clock limit would have stopped it)
+    if case.startswith("car"):
+        vehicle = ff.rectangle_vehicle(0.8, 0.8, mode="car", min_turn_radius_m=1.0, name="car")
+        stations = [Station("A", 2.0, 2.0, 90.0), Station("B", 6.0, 2.0, 90.0)]
+    else:
+        vehicle, stations = _wide(), STATIONS
+
+    def findings():
+        r = run_check(_plan(), vehicle, stations, site=NO_CLEARANCE, heading_step_deg=STEP)
+        return r.passed, [(f.kind, f.cause, f.direction_changes, round(f.x, 6), round(f.y, 6)) for f in r.findings]
+
+    real = findings()
+    assert real[0] == case.startswith("car")
+    clock = [time.perf_counter()]
+
+    def slow() -> float:
+        clock[0] += 1000.0
+        return clock[0]
+
+    monkeypatch.setattr(time, "perf_counter", slow)
+    monkeypatch.setattr(time, "monotonic", slow)
+    assert findings() == real
 
 
 def test_omni_vehicles_have_no_budget():

@@ -31,7 +31,7 @@ pair. Omni and fixed vehicles have no budget: they are judged by the holonomic a
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from typing import Any
 
 import networkx as nx
@@ -58,9 +58,10 @@ __all__ = ["BUDGET_LIMITS", "BUDGET_MODES", "PairVerdict", "budget_applies", "bu
 
 #: Motion modes judged by a manoeuvre budget.
 BUDGET_MODES = ("differential", "car")
-#: Search limits of one station pair's drive: counts decide (subdivision checks, car expansions); the
-#: time limit is a safety net for very large sites.
-BUDGET_LIMITS = replace(MANEUVER_LIMITS, time_limit_s=30.0)
+#: Search limits of one station pair's drive: counts only (car expansions, steering checks, split
+#: depth), no wall-clock limit, so that a verdict does not depend on the machine or its load. A limit
+#: reached errs towards "not shown within the budget" (a finding), never towards "served".
+BUDGET_LIMITS = MANEUVER_LIMITS
 
 
 def budget_applies(vehicle: Vehicle, budget: int | None) -> bool:

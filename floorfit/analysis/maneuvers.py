@@ -29,7 +29,6 @@ search tries these combinations while its failures are quick.
 from __future__ import annotations
 
 import math
-import time
 from dataclasses import dataclass, field
 from itertools import pairwise
 
@@ -62,6 +61,7 @@ from floorfit.vehicles.rigid import Vehicle
 
 __all__ = [
     "DriveContext",
+    "MANEUVER_EXPANSION_BUDGET",
     "MANEUVER_LIMITS",
     "PairDrive",
     "maneuver_findings",
@@ -71,8 +71,12 @@ __all__ = [
     "turnaround_circle",
 ]
 
-#: Search limits per station pair in the check (each pair may run two searches).
-MANEUVER_LIMITS = DriveLimits(max_expansions=6000, time_limit_s=6.0)
+#: Search limits per station pair in the check (each pair may run two searches): counts only, no
+#: wall-clock limit, so that the same inputs give the same findings on any machine and at any load.
+MANEUVER_LIMITS = DriveLimits(max_expansions=6000, time_limit_s=None)
+#: Car searches of one check: once their expansions add up to this, the pairs left are named in a
+#: note instead of being searched (a count, like every limit that decides a finding).
+MANEUVER_EXPANSION_BUDGET = 200_000
 #: Forward-only searches per pair (combinations of candidate headings at stations without one).
 MAX_HEADING_TRIES = 4
 #: Stations without a heading: the travel direction is read this far (m) along the holonomic route.
@@ -99,6 +103,8 @@ class PairDrive:
     goal_local: tuple[float, float, float] | None = None
     holonomic: np.ndarray | None = None
     reasons: list[str] = field(default_factory=list)
+    #: node expansions of every car search run for this pair
+    expansions: int = 0
 
     @property
     def direction_changes(self) -> int:
@@ -223,25 +229,26 @@ def station_pair_drive(ctx: _Context, a: Station, b: Station) -> PairDrive:
         goals = [b.heading_deg] if b.heading_deg is not None else \
             _heading_candidates(ctx, (bx, by), _travel_heading(hol, False), hb)
         out.start_local, out.goal_local = (ax, ay, starts[0]), (bx, by, goals[0])
-        spent = 0.0
         fwd = None
         for sh, gh in [(sh, gh) for sh in starts for gh in goals][:MAX_HEADING_TRIES]:
             fwd = plan_car(ctx.slices, ctx.vehicle, (ax, ay, sh), (bx, by, gh), reverse=False,
                            limits=ctx.limits, grid=ctx.grid, check=ctx.check)
             out.reasons.append(f"forward only, headings {sh:.0f}° → {gh:.0f}°: {fwd.reason}")
-            spent += fwd.elapsed_s
+            out.expansions += fwd.expansions
             if fwd.found:
                 out.start_local, out.goal_local = (ax, ay, sh), (bx, by, gh)
                 out.status, out.drive, out.forward_found = FOUND, fwd, True
                 return out
             # other headings only while the searches fail fast (the space at this resolution exhausted)
+            # and together stay within one search's expansions
             if not fwd.reason.startswith("searched every reachable cell") or \
-                    (ctx.limits.time_limit_s is not None and spent > ctx.limits.time_limit_s):
+                    out.expansions > ctx.limits.max_expansions:
                 break
         out.drive = fwd
         if ctx.vehicle.reverse:
             rev = plan_car(ctx.slices, ctx.vehicle, out.start_local, out.goal_local, reverse=True,
                            limits=ctx.limits, grid=ctx.grid, check=ctx.check)
+            out.expansions += rev.expansions
             out.reasons.append(f"with reversing: {rev.reason}")
             out.drive = rev
             if rev.found:
@@ -277,7 +284,7 @@ def _maneuver_span(dp: DrivePlan):
 
 def maneuver_findings(plan: Plan, vehicle: Vehicle, slices: SliceSet, stations: list[Station], *,
                       roadmap: nx.Graph | None = None, notes: list[str] | None = None,
-                      limits: DriveLimits = MANEUVER_LIMITS, time_budget_s: float | None = 120.0,
+                      limits: DriveLimits = MANEUVER_LIMITS, expansion_budget: int | None = MANEUVER_EXPANSION_BUDGET,
                       pair_drives: dict | None = None, max_direction_changes: int | None = None) -> list[Finding]:
     """``maneuver`` findings of a car-like vehicle between stations (drawing-frame positions).
 
@@ -287,8 +294,9 @@ def maneuver_findings(plan: Plan, vehicle: Vehicle, slices: SliceSet, stations: 
     cause ``reversing``; the summary gives the number of direction changes and the turn).
     Findings within a vehicle length of each other are merged. A forward-only vehicle
     with no path found gives cause ``not-found-within-limits``. Pairs a reversing vehicle
-    could not be planned for within ``limits``, and pairs left when ``time_budget_s`` is
-    spent, are reported in ``notes`` (a list appended to) instead. Other motion modes: [].
+    could not be planned for within ``limits``, and pairs left once the searches have used
+    ``expansion_budget`` node expansions in all, are reported in ``notes`` (a list appended to)
+    instead. Other motion modes: [].
     ``pair_drives``: an optional dict filled with ``(a, b) -> PairDrive``.
     ``max_direction_changes``: with a manoeuvre budget, only pairs served within it give ``reversing``
     findings here; pairs over it and pairs without a path found are judged by
@@ -298,17 +306,18 @@ def maneuver_findings(plan: Plan, vehicle: Vehicle, slices: SliceSet, stations: 
         return []
     notes = notes if notes is not None else []
     ctx = _Context(plan, vehicle, slices, roadmap, limits)
-    t0 = time.perf_counter()
+    spent = 0
     raw: list[tuple] = []
     skipped = []
     for a in stations:
         for b in stations:
             if a is b:
                 continue
-            if time_budget_s is not None and time.perf_counter() - t0 > time_budget_s:
+            if expansion_budget is not None and spent >= expansion_budget:
                 skipped.append(f"{a.name} → {b.name}")
                 continue
             pd = station_pair_drive(ctx, a, b)
+            spent += pd.expansions
             if pair_drives is not None:
                 pair_drives[(a.name, b.name)] = pd
             if pd.status in ("not-connected", "station-blocked"):
@@ -323,7 +332,8 @@ def maneuver_findings(plan: Plan, vehicle: Vehicle, slices: SliceSet, stations: 
                 else:
                     raw.append(("not-found-within-limits", pd))
     if skipped:
-        notes.append(f"maneuver analysis stopped after {time_budget_s:g} s; not analysed: {', '.join(skipped)}")
+        notes.append(f"maneuver analysis stopped after {spent} search expansions (budget {expansion_budget}); "
+                     f"not analysed: {', '.join(skipped)}")
     return _merge(plan, vehicle, raw)
 
 
