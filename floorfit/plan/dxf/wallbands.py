@@ -8,7 +8,7 @@ band*) and the line segments on its boundary are dropped.
 
 What is filled
 --------------
-The lines on wall-role layers with one height range are noded and polygonized together
+The lines of one wall-role layer and height range are noded and polygonized together
 (``shapely.node``, ``shapely.polygonize``): every face found is bounded entirely by those
 lines. A face is filled when its maximum inscribed circle
 (``shapely.maximum_inscribed_circle``) is at most :data:`WALL_BAND_MAX_WIDTH_M` across and
@@ -121,10 +121,12 @@ def _split_runs(coords: np.ndarray, dropped: np.ndarray) -> list[np.ndarray]:
 
 
 def _group_key(attrs: tuple) -> tuple:
-    """(bottom, top): lines of one height range form bands together (a band is an obstacle
-    over the height range of the lines around it)."""
+    """(layer, bottom, top): lines of one layer and height range form bands together. A band is
+    an obstacle over the height range of the lines around it and carries one layer, whose
+    heights a site file may set after the import (``[heights]``): a lintel drawn on its own
+    layer across a door must not join the full-height walls beside it."""
     z0, z1 = attrs[1], attrs[2]
-    return (z0 if math.isfinite(z0) else -math.inf, z1 if math.isfinite(z1) else math.inf)
+    return (attrs[0], z0 if math.isfinite(z0) else -math.inf, z1 if math.isfinite(z1) else math.inf)
 
 
 def _segments(lines: np.ndarray):
