@@ -40,7 +40,7 @@ from shapely.geometry import LineString
 from floorfit.analysis.findings import Finding, Station
 from floorfit.analysis.naming import place_name
 from floorfit.cspace.collision import place_footprint, sample_motion
-from floorfit.cspace.headings import arc_deg, dominant_directions_deg, wrap_deg
+from floorfit.cspace.headings import arc_deg, wrap_deg
 from floorfit.cspace.minkowski import convex_parts
 from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.slices import SliceSet
@@ -193,7 +193,7 @@ def _heading_candidates(ctx: _Context, xy, travel: float | None, fallback: float
     the nearest direction of the plan's walls (along an aisle), and the opposite way."""
     t = fallback if travel is None else travel
     wanted = [t]
-    dirs = dominant_directions_deg(ctx.plan.walls) if len(ctx.plan.walls) else []
+    dirs = ctx.plan.principal_wall_directions_deg()
     if dirs:
         axes = np.array([d + 90.0 * k for d in dirs for k in range(4)])
         wanted.append(float(axes[np.argmin(np.abs(arc_deg(axes, t)))]))

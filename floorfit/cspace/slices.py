@@ -50,7 +50,6 @@ from floorfit.cspace.freespace import CLIP_GUARD_M, MIN_COMPONENT_AREA_M2, obsta
 from floorfit.cspace.headings import (
     HeadingCells,
     default_step_deg,
-    dominant_directions_deg,
     make_heading_cells,
     rotation_displacement_m,
     wrap_deg,
@@ -114,8 +113,8 @@ def choose_headings(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | N
         return make_heading_cells(0.0, only=[h])
     step = check_heading_step(heading_step_deg) if heading_step_deg is not None else default_step(plan, vehicle)
     extra = [float(h) for h in extra_headings]
-    if wall_directions and len(plan.walls):
-        for d in dominant_directions_deg(plan.walls):
+    if wall_directions:
+        for d in plan.principal_wall_directions_deg():
             extra.extend([d, d + 90.0, d + 180.0, d + 270.0])
     return make_heading_cells(step, extra)
 

@@ -29,6 +29,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import shapely
 
+from floorfit.plan.directions import dominant_directions_deg
+
 __all__ = ["Plan", "Label", "Doorway", "ImportIssue", "LayerInfo", "FULL_HEIGHT"]
 
 #: Height range of an obstacle that blocks any vehicle: floor to infinity (metres).
@@ -132,6 +134,16 @@ class Plan:
     solid_handles: np.ndarray | None = None
     wall_types: np.ndarray | None = None
     solid_types: np.ndarray | None = None
+    # DXF drawings: the principal directions of the wall linework as drawn, degrees in [0, 90)
+    # (before double wall lines became filled wall bands); None: taken from ``walls``
+    wall_directions_deg: tuple[float, ...] | None = None
+
+    def principal_wall_directions_deg(self) -> list[float]:
+        """Principal directions of the walls, degrees in [0, 90): as drawn where the importer
+        recorded them (:attr:`wall_directions_deg`), else of the wall linework."""
+        if self.wall_directions_deg is not None:
+            return list(self.wall_directions_deg)
+        return dominant_directions_deg(self.walls) if len(self.walls) else []
 
     def __post_init__(self) -> None:
         self.walls = _as_geometry_array(self.walls, "walls")

@@ -21,6 +21,7 @@ import shapely
 from shapely.errors import GEOSException
 
 from floorfit.errors import FloorfitError, InputError, PlanImportError
+from floorfit.plan.directions import dominant_directions_deg
 from floorfit.plan.dxf.doors import door_size_evidence, find_doors
 from floorfit.plan.dxf.hatches import hatch_needs_thickness, hatch_policy
 from floorfit.plan.dxf.labels import LabelIndex, to_labels
@@ -490,6 +491,8 @@ def _import_drawing(path, *, units, roles, window, layers, keep_door_leaves, lim
 
     walls_m = to_local(walls) if len(walls) else walls
     solids_m = to_local(solids) if len(solids) else solids
+    # the walls' directions as drawn (the heading slices follow them), before bands replace lines
+    wall_directions = tuple(dominant_directions_deg(walls_m)) if len(walls_m) else ()
     walls_m, w_attr, solids_m, s_attr, bands = form_wall_bands(     # double wall lines -> filled bands
         walls_m, w_attr, solids_m, s_attr, lambda lay: resolver.layer_role(lay).role == "wall")
     notes.update(bands)
@@ -555,7 +558,7 @@ def _import_drawing(path, *, units, roles, window, layers, keep_door_leaves, lim
                 solid_types=np.array([a[4] for a in s_attr], dtype=object),
                 units=decision.name, metres_per_unit=mpu, unit_reason=decision.reason,
                 curve_tolerance_m=curve_tolerance_m, doors=doorways, labels=labels, layers=layer_infos,
-                issues=issues, dxf_version=dxf_version)
+                issues=issues, dxf_version=dxf_version, wall_directions_deg=wall_directions)
     return ImportResult(plan=plan, units=decision, evidence=evidence, block_stats=stats,
                         binary=_is_binary(Path(name)), release=release, layer_roles=layer_roles,
                         notes=dict(notes),
