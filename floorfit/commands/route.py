@@ -210,8 +210,8 @@ def _slices_line(slices, cache: str | None, window=None, plan=None) -> str:
     text = f"  slices: {built} built" + (f" on {slices.workers_used} processes" if slices.workers_used > 1 else "")
     if window is not None:
         (ax, ay), (bx, by) = plan.to_drawing(window[0], window[1]), plan.to_drawing(window[2], window[3])
-        text += (f" for x {ax:.1f} .. {bx:.1f} m, y {ay:.1f} .. {by:.1f} m around start and goal only, where the "
-                 f"route was found (--full-slices builds them for the whole drawing)")
+        text += (f" for x {ax:.1f} .. {bx:.1f} m, y {ay:.1f} .. {by:.1f} m around start and goal only, which settled "
+                 f"the answer (--full-slices builds them for the whole drawing)")
     if cache is None:
         return text + ", disk cache off"
     return text + f", {slices.reused} reused from the disk cache {cache} (--no-cache to rebuild)"
