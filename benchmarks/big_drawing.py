@@ -34,6 +34,8 @@ from pathlib import Path
 import ezdxf
 import numpy as np
 
+from .warehouse import fixed_dxf_metadata
+
 __all__ = ["OfficeFloor", "office_floor", "write_office_dxf", "DEFAULT_COLUMNS", "DEFAULT_MODULES"]
 
 MM = 1000.0
@@ -231,12 +233,8 @@ def write_office_dxf(path: str | Path, columns: int = DEFAULT_COLUMNS, modules: 
     first = int(doc.entitydb.handles.next(), 16)
     doc.entitydb.handles.reset(f"{first + f.line_count + 1:X}")   # $HANDSEED beyond the raw LINEs
     text = io.StringIO()
-    old = ezdxf.options.write_fixed_meta_data_for_testing
-    ezdxf.options.write_fixed_meta_data_for_testing = True
-    try:
+    with fixed_dxf_metadata():
         doc.write(text)
-    finally:
-        ezdxf.options.write_fixed_meta_data_for_testing = old
     body = text.getvalue()
     cut = body.index("  0\nENDSEC\n", body.index("\nENTITIES\n"))
     path = Path(path)

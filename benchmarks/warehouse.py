@@ -15,6 +15,7 @@ same site with one double rack row shifted sideways (a layout comparison).
 from __future__ import annotations
 
 import math
+from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -270,13 +271,21 @@ def write_dxf(site: Warehouse, path: str | Path) -> Path:
     for text, x, y, h in site.labels:
         msp.add_text(text, height=h * MM, dxfattribs={"layer": "A-ANNO-TEXT", "insert": (x * MM, y * MM)})
     path = Path(path)
+    with fixed_dxf_metadata():
+        doc.saveas(path)
+    return path
+
+
+@contextmanager
+def fixed_dxf_metadata():
+    """ezdxf writes fixed header metadata (times, GUIDs) inside this block, so a generated
+    drawing is byte-identical from run to run."""
     old = ezdxf.options.write_fixed_meta_data_for_testing
     ezdxf.options.write_fixed_meta_data_for_testing = True
     try:
-        doc.saveas(path)
+        yield
     finally:
         ezdxf.options.write_fixed_meta_data_for_testing = old
-    return path
 
 
 def write_site(site: Warehouse, path: str | Path, heading_step: float | None = None) -> Path:
