@@ -106,7 +106,8 @@ def run(args) -> int:
     # the slices find_route would build (start and goal headings get slices of their own),
     # built here so that each stage can be reported
     cells = choose_headings(plan, vehicle, heading_step_deg=args.heading_step, extra_headings=(start[2], goal[2]))
-    window = None if getattr(args, "full_slices", False) else _lazy_window(plan, vehicle, start, goal)
+    full = getattr(args, "full_slices", False)
+    window = None if full else _lazy_window(plan, vehicle, start, goal)
     obstacles = None
     cached_whole = False
     if window is not None and cache is not None:
@@ -126,21 +127,25 @@ def run(args) -> int:
                             limits=limits, slices=slices, roadmap=build_roadmap(slices), check_optimistic=False)
         if result.status not in LAZY_FINAL:
             result = None          # not settled near the poses: the whole drawing decides
-    full = getattr(args, "full_slices", False)
     coarse = None if args.heading_step is not None or cached_whole or full \
         else coarse_cells(plan, vehicle, (start[2], goal[2]))
     if result is None:
         # the whole drawing's slices follow: refuse a run too large, with advice that works
         check_problem_size(plan, len(cells), slices_for_step=lambda step: len(choose_headings(
             plan, vehicle, heading_step_deg=step, extra_headings=(start[2], goal[2]))))
+
+    def whole_drawing(heading_cells, what: str):
+        """The slices of the whole drawing for ``heading_cells``, announced as ``what``."""
+        nonlocal obstacles
+        obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
+        processes = pool_size(obstacles, len(heading_cells), args.workers)
+        progress.stage(f"{what}: {len(heading_cells)} headings on {processes} process{'es' if processes > 1 else ''}")
+        return build_slices(plan, vehicle, cells=heading_cells, workers=args.workers, obstacles=obstacles,
+                            progress=progress.update)
+
     if result is None and coarse is not None:
         # coarse slices of the whole drawing: a route found on them is a route
-        obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
-        processes = pool_size(obstacles, len(coarse), args.workers)
-        progress.stage(f"slices at a coarse {coarse.step_deg:g}° step first: {len(coarse)} headings on "
-                       f"{processes} process{'es' if processes > 1 else ''}")
-        slices = build_slices(plan, vehicle, cells=coarse, workers=args.workers, obstacles=obstacles,
-                              progress=progress.update)
+        slices = whole_drawing(coarse, f"slices at a coarse {coarse.step_deg:g}° step first")
         progress.stage("roadmap and route search on the coarse slices")
         result = find_route(plan, vehicle, start, goal, workers=args.workers, limits=limits, slices=slices,
                             roadmap=build_roadmap(slices), check_optimistic=False)
@@ -150,11 +155,7 @@ def run(args) -> int:
         else:
             result = None          # the default step decides
     if result is None:
-        obstacles = obstacles if obstacles is not None else obstacles_for(plan, vehicle)
-        processes = pool_size(obstacles, len(cells), args.workers)
-        progress.stage(f"slices: {len(cells)} headings on {processes} process{'es' if processes > 1 else ''}")
-        slices = build_slices(plan, vehicle, cells=cells, workers=args.workers, obstacles=obstacles,
-                              progress=progress.update)
+        slices = whole_drawing(cells, "slices")
         progress.stage("roadmap")
         roadmap = build_roadmap(slices)
         progress.stage("route search (a failed search also builds the optimistic slices)")
