@@ -33,11 +33,12 @@ from floorfit.analysis.maneuvers import maneuver_findings, route_sweeps
 from floorfit.analysis.noturn import MAP_MAX_CELLS, noturn_findings, turnability_map
 from floorfit.analysis.passages import min_width
 from floorfit.analysis.places import find_places, station_regions
+from floorfit.analysis.sidecar import Sidecar
 from floorfit.analysis.tight import tight_findings
 from floorfit.analysis.traffic import traffic_stage
 from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.sizelimits import check_problem_size
-from floorfit.cspace.slicepool import pool_size
+from floorfit.cspace.slicepool import POOL_MIN_WORK, pool_size, worker_count
 from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for
 from floorfit.errors import SiteError
 from floorfit.plan.model import Plan
@@ -121,6 +122,42 @@ def manoeuvre_stage(ctx: CheckContext, cs: SliceStage, routes, reach: dict | Non
     return findings, route_dicts
 
 
+def _manoeuvre_part(ctx: CheckContext, cs: SliceStage, routes, reach: dict, cuts: dict,
+                    progress: Callable[[str], None] | None):
+    """:func:`manoeuvre_stage` with what it changes: findings, swept routes, ``reach``, ``cuts`` and
+    the notes it adds (``progress``: where its stage lines go; None: the check's own)."""
+    n0 = len(ctx.notes)
+    own = ctx.progress
+    if progress is not None:
+        ctx.progress = progress
+    try:
+        findings, route_dicts = manoeuvre_stage(ctx, cs, routes, reach=reach, cuts=cuts)
+    finally:
+        ctx.progress = own
+    return findings, route_dicts, reach, cuts, ctx.notes[n0:]
+
+
+#: Obstacle pieces × slices above which the station-pair drives run on a second process while
+#: the clearance and turnability stages run here (below it, forking costs more than it saves).
+DRIVES_APART_MIN_WORK = POOL_MIN_WORK
+
+
+def _drives_apart(ctx: CheckContext, cs: SliceStage, routes) -> bool:
+    """Whether the manoeuvre stage goes to a second process: more than one worker allowed, a
+    large site, and drives to plan (a car's manoeuvres, a manoeuvre budget or swept routes)."""
+    if worker_count(ctx.workers) < 2 or cs.obstacles.piece_count * len(cs.cells) < DRIVES_APART_MIN_WORK:
+        return False
+    site, vehicle = ctx.site, ctx.vehicle
+    pairs = len(ctx.stations) > 1 and (vehicle.mode == "car" or budget_applies(vehicle, site.max_direction_changes))
+    return pairs or bool(list(routes if routes is not None else site.routes))
+
+
+def _manoeuvre_words(ctx: CheckContext) -> str:
+    if budget_applies(ctx.vehicle, ctx.site.max_direction_changes) and len(ctx.stations) > 1:
+        return f"manoeuvre budget ({budget_text(ctx.site.max_direction_changes)})"
+    return "manoeuvres and swept routes"
+
+
 def _check_route_names(ctx: CheckContext, routes) -> None:
     wanted = list(routes if routes is not None else ctx.site.routes)
     unknown = sorted({n for pair in wanted for n in pair} - set(ctx.station_names))
@@ -160,18 +197,38 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     pinches, join_tree = pinch_findings(ctx, cs, clear, places, needed)
     findings += pinches
     cuts = station_pair_cuts(ctx, places, reach, join_tree)
-    if not quick:
-        findings += tight_findings(ctx, cs, clear, places, findings)
     _check_route_names(ctx, routes)
     if quick:
         return _finish(ctx, findings, cuts, cs, clear, None, needed, reach, {})
-    manoeuvres, route_dicts = manoeuvre_stage(ctx, cs, routes, reach=reach, cuts=cuts)
-    findings += manoeuvres
+    # the station-pair drives need neither the clearance nor the turnability stage (nor they them):
+    # on a large site they run on a second process meanwhile (same code, same counted limits)
+    apart = _drives_apart(ctx, cs, routes)
+    drives = Sidecar(_manoeuvre_part, ctx, cs, routes, reach, cuts, _noop if apart else None, enabled=apart)
+    if drives.running_apart:
+        ctx.progress(f"{_manoeuvre_words(ctx)} on a second process, meanwhile:")
+    findings += tight_findings(ctx, cs, clear, places, findings)
+    n_tight = len(ctx.notes)
+    if not drives.running_apart:
+        manoeuvres, route_dicts = drives.result()[:2]
 
     ctx.progress("turnability map")
     map_cell = choose_cell_size(clear.bounds, 0.1, MAP_MAX_CELLS)
     turnability, raster, fits = turnability_map(ctx, cs, clear, map_cell)
-    findings += noturn_findings(ctx, cs, turnability, raster, fits, map_cell)
+    noturn = noturn_findings(ctx, cs, turnability, raster, fits, map_cell)
+    if drives.running_apart:
+        ctx.progress(f"waiting for the {_manoeuvre_words(ctx)}")
+        n_turn = len(ctx.notes)
+        manoeuvres, route_dicts, reach_after, cuts_after, notes = drives.result()
+        reach.update(reach_after)
+        for key, cut_by in cuts_after.items():
+            # the drives only append to a pair's findings: the ones before are this process's own
+            # objects (the ids given later must reach them), the rest came back with the findings
+            own = cuts.setdefault(key, [])
+            own.extend(cut_by[len(own):])
+        # the notes in the order one process writes them: clearance, drives, turnability
+        ctx.notes[n_tight:] = notes + ctx.notes[n_tight:n_turn]
+    findings += manoeuvres
+    findings += noturn
     traffic = None
     if site.traffic is not None:
         more, traffic = traffic_stage(ctx, cs, reach, turnability.get("fits"))
