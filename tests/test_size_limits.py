@@ -56,3 +56,31 @@ def test_advised_step_is_the_finest_the_limit_accepts():
     finer = limits.ADVICE_STEPS_DEG[limits.ADVICE_STEPS_DEG.index(step) - 1]
     assert 40_000 * (round(360 / finer) + 30) > limits.MAX_EDGE_SLICES
     assert limits.advised_step_deg(10 ** 9) is None
+
+
+def test_size_refuses_a_run_too_large_before_any_evaluation_and_its_advice_works(tmp_path, monkeypatch, capsys):
+    # sizing builds one slice set per evaluation: the same limit as the check, before the first one
+    import re
+
+    import floorfit.analysis.sizing as sizing_module
+    import floorfit.cspace.slices as slices_module
+    from floorfit.cli import main
+    from floorfit.demo import write_demo_site
+
+    demo = write_demo_site(tmp_path / "plans")
+    edges = ff.load_plan(demo["plan"]).edge_count()
+    monkeypatch.setattr(limits, "MAX_EDGE_SLICES", edges * 40)      # about 40 slices allowed
+    size = ["size", str(demo["plan"]), "--vehicle", str(demo["vehicle"]), "--site", str(demo["site"]),
+            "--vary", "width", "--precision", "0.1", "--quiet", "--heading-step", "3"]
+    built = []
+    with monkeypatch.context() as m:         # no slice may be built before the refusal
+        for module in (slices_module, sizing_module):
+            m.setattr(module, "build_slices", lambda *a, **k: built.append(1))
+        code = main(size)
+    err = capsys.readouterr().err.strip().splitlines()
+    assert code == 2 and not built
+    assert err[-1].startswith(f"floorfit size: {demo['plan']}: ") and f"above the limit of {edges * 40:,}" in err[-1]
+    step = re.search(r"--heading-step \(e\.g\. ([0-9.]+)°\)", err[-1]).group(1)
+    assert float(step) > 3.0
+    # followed, the advice is accepted: the sizing runs (exit 0 fits, 1 does not fit)
+    assert main(size[:-1] + [step]) in (0, 1)

@@ -67,6 +67,7 @@ import shapely
 from floorfit.analysis.budget import budget_applies, budget_text, first_pair_over_budget
 from floorfit.analysis.findings import Station
 from floorfit.cspace.roadmap import build_roadmap
+from floorfit.cspace.sizelimits import check_problem_size
 from floorfit.cspace.slicememo import active_memo, sharing
 from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for
 from floorfit.errors import InputError
@@ -403,6 +404,9 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
     step = next((v for v in (heading_step_deg, site.heading_step_deg) if v is not None), DEFAULT_SIZING_STEP_DEG)
     extra = [s.heading_deg for s in stations if s.heading_deg is not None]
     cells = choose_headings(plan, vehicle, heading_step_deg=step, extra_headings=extra)
+    # every evaluation builds this many slices: a huge site gets advice before the first one
+    check_problem_size(plan, len(cells), slices_for_step=lambda s: len(choose_headings(
+        plan, vehicle, heading_step_deg=s, extra_headings=extra)))
     obstacles = obstacles_for(plan, vehicle)
     x0, y0, x1, y1 = plan.extent_m
     cap = max_m if max_m is not None else min(max(math.hypot(x1 - x0, y1 - y0), 2 * current), PLAUSIBLE_SIZE_M[1])
