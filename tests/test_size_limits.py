@@ -48,6 +48,23 @@ def test_too_many_edges_advises_a_window_the_limit_accepts(monkeypatch):
     assert 4 * len(cropped) <= 40                           # what the limit accepts
 
 
+def test_an_advised_window_holds_the_stations(monkeypatch):
+    # the same row of squares with the station at its west end: a window about the middle of the
+    # drawing would leave it out, and the run the advice names would then refuse the station
+    walls = [shapely.box(10 * i, 0, 10 * i + 1, 1).exterior for i in range(50)]
+    plan = Plan.from_geometries(walls=walls, source="row.dxf")
+    stations = [Station("a", 5.5, 0.5), Station("b", 25.5, 0.5)]
+    limits_edges = 40
+    monkeypatch.setattr(limits, "MAX_EDGES", limits_edges)
+    with pytest.raises(LimitExceeded) as exc:
+        run_check(plan, ff.rectangle_vehicle(1, 0.5), stations)
+    window = tuple(float(v) for v in str(exc.value).split("--window ")[1].split(" ")[0].split(","))
+    x0, y0, x1, y1 = window
+    assert x0 <= 5.5 - 2.0 and x1 >= 25.5 + 2.0                 # both stations and room around them
+    cropped = [w for w in walls if shapely.box(*window).intersects(w)]
+    assert 4 * len(cropped) <= limits_edges                      # what the limit accepts
+
+
 def test_advised_step_is_the_finest_the_limit_accepts():
     # without a slice count: uniform slices plus at most 30 wall-direction and pose slices
     assert limits.advised_step_deg(10, None) == 1.0

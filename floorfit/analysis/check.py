@@ -65,7 +65,8 @@ def slice_stage(ctx: CheckContext) -> SliceStage:
     plan, vehicle = ctx.plan, ctx.vehicle
     cells = choose_headings(plan, vehicle, heading_step_deg=ctx.heading_step_deg, extra_headings=ctx.extra_headings)
     check_problem_size(plan, len(cells), slices_for_step=lambda step: len(choose_headings(
-        plan, vehicle, heading_step_deg=step, extra_headings=ctx.extra_headings)))
+        plan, vehicle, heading_step_deg=step, extra_headings=ctx.extra_headings)),
+        keep=list(ctx.st_local.values()))
     obstacles = obstacles_for(plan, vehicle)
     processes = pool_size(obstacles, len(cells), ctx.workers)
     ctx.progress(f"slices: {len(cells)} headings on {processes} process{'es' if processes > 1 else ''}")

@@ -406,7 +406,7 @@ def size_vehicle(plan: Plan, vehicle: Vehicle, stations: list[Station], *, vary:
     cells = choose_headings(plan, vehicle, heading_step_deg=step, extra_headings=extra)
     # every evaluation builds this many slices: a huge site gets advice before the first one
     check_problem_size(plan, len(cells), slices_for_step=lambda s: len(choose_headings(
-        plan, vehicle, heading_step_deg=s, extra_headings=extra)))
+        plan, vehicle, heading_step_deg=s, extra_headings=extra)), keep=[plan.to_local(s.x, s.y) for s in stations])
     obstacles = obstacles_for(plan, vehicle)
     x0, y0, x1, y1 = plan.extent_m
     cap = max_m if max_m is not None else min(max(math.hypot(x1 - x0, y1 - y0), 2 * current), PLAUSIBLE_SIZE_M[1])

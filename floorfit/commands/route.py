@@ -132,7 +132,8 @@ def run(args) -> int:
     if result is None:
         # the whole drawing's slices follow: refuse a run too large, with advice that works
         check_problem_size(plan, len(cells), slices_for_step=lambda step: len(choose_headings(
-            plan, vehicle, heading_step_deg=step, extra_headings=(start[2], goal[2]))))
+            plan, vehicle, heading_step_deg=step, extra_headings=(start[2], goal[2]))),
+            keep=[plan.to_local(start[0], start[1]), plan.to_local(goal[0], goal[1])])
 
     def whole_drawing(heading_cells, what: str):
         """The slices of the whole drawing for ``heading_cells``, announced as ``what``."""

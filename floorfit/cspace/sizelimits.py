@@ -66,44 +66,54 @@ def _edge_counts(plan) -> tuple[np.ndarray, np.ndarray]:
     return np.concatenate(geoms), np.concatenate(counts).astype(np.int64)
 
 
-def advised_window(plan, max_edges: int) -> tuple[float, float, float, float] | None:
+def advised_window(plan, max_edges: int, keep=None, keep_pad_m: float = 2.0
+                   ) -> tuple[float, float, float, float] | None:
     """A ``--window`` (drawing units) around the middle of the obstacles holding at most ``max_edges`` edges.
 
     The window is a square about the middle, cut to the obstacles' extent (a long building
     keeps its whole depth), and the largest (by bisection on its size) for which the
     obstacles it touches have at most ``max_edges`` edges, counted as an upper bound on what
     clipping leaves (lines keep at most their own edges; a clipped polygon at most twice its
-    edges plus four). None when no window helps.
+    edges plus four). With ``keep`` (local-frame points, metres: the run's stations, start or
+    goal) the window grows from the box holding them, ``keep_pad_m`` around each, so that the
+    cropped run still has them. None when no window helps.
     """
     geoms, counts = _edge_counts(plan)
     if not len(geoms) or max_edges < 1:
         return None
     tree = shapely.STRtree(geoms)
     x0, y0, x1, y1 = plan.local_bounds()
-    cx, cy, hw, hh = 0.5 * (x0 + x1), 0.5 * (y0 + y1), 0.5 * (x1 - x0), 0.5 * (y1 - y0)
-    reach = max(hw, hh)
+    reach = 0.5 * max(x1 - x0, y1 - y0)
+    if keep is not None and len(np.asarray(keep, dtype=float).reshape(-1, 2)):
+        pts = np.asarray(keep, dtype=float).reshape(-1, 2)
+        k0, k1 = pts.min(axis=0) - keep_pad_m, pts.max(axis=0) + keep_pad_m
+    else:
+        k0 = k1 = np.array([0.5 * (x0 + x1), 0.5 * (y0 + y1)])
 
-    def halves(scale: float) -> tuple[float, float]:
-        return min(hw, scale * reach), min(hh, scale * reach)
+    def window(scale: float) -> tuple[float, float, float, float]:
+        grow = scale * reach
+        # grown by ``grow``, cut to the obstacles' extent, never cutting into the kept points' box
+        lo_x, lo_y = np.minimum(k0, np.maximum((x0, y0), k0 - grow))
+        hi_x, hi_y = np.maximum(k1, np.minimum((x1, y1), k1 + grow))
+        return float(lo_x), float(lo_y), float(hi_x), float(hi_y)
 
     def edges_in(scale: float) -> int:
-        a, b = halves(scale)
-        win = shapely.box(cx - a, cy - b, cx + a, cy + b)
-        return int(counts[tree.query(win, predicate="intersects")].sum())
+        return int(counts[tree.query(shapely.box(*window(scale)), predicate="intersects")].sum())
 
-    lo, hi = 0.0, 1.0
+    lo, hi = 0.0, 2.0
     if edges_in(1e-6) > max_edges:
         return None
     for _ in range(30):
         mid = 0.5 * (lo + hi)
         lo, hi = (mid, hi) if edges_in(mid) <= max_edges else (lo, mid)
-    if lo <= 0.0:
+    if lo <= 0.0 and keep is None:
         return None
     ox, oy = plan.origin
     mpu = plan.metres_per_unit or 1.0
     # drawing units, rounded inwards so the window printed is no larger than the one measured
-    a, b = halves(lo)
-    w = ((cx - a + ox) / mpu, (cy - b + oy) / mpu, (cx + a + ox) / mpu, (cy + b + oy) / mpu)
+    # (and outwards where it must hold a kept point's room)
+    a0, b0, a1, b1 = window(lo)
+    w = ((a0 + ox) / mpu, (b0 + oy) / mpu, (a1 + ox) / mpu, (b1 + oy) / mpu)
     digits = max(0, 3 - int(math.floor(math.log10(max(abs(v) for v in w) or 1.0))))
     q = 10.0 ** digits
     return (math.ceil(w[0] * q) / q, math.ceil(w[1] * q) / q, math.floor(w[2] * q) / q, math.floor(w[3] * q) / q)
@@ -119,31 +129,33 @@ def window_budget(n_slices: int) -> int:
     return max(0, min(MAX_EDGES, MAX_EDGE_SLICES // max(1, n_slices + WALL_DIRECTION_SLICES)))
 
 
-def _window_text(plan, max_edges: int) -> str:
-    win = advised_window(plan, max_edges)
+def _window_text(plan, max_edges: int, keep=None) -> str:
+    win = advised_window(plan, max_edges, keep)
     if win is None:
         return "crop it with --window"
     return "crop it, e.g. --window " + ",".join(f"{v:g}" for v in win)
 
 
-def check_problem_size(plan, n_slices: int, slices_for_step: Callable[[float], int] | None = None) -> None:
+def check_problem_size(plan, n_slices: int, slices_for_step: Callable[[float], int] | None = None,
+                       keep=None) -> None:
     """Raise :class:`LimitExceeded` with advice when the run would be too large.
 
     ``slices_for_step(step)`` gives the number of slices the run would have at a uniform
     ``step`` (degrees); the advised step is one whose count passes this check. Without it
     the count is bounded by the uniform slices plus the most wall-direction and start/goal
-    slices a run adds.
+    slices a run adds. ``keep``: local-frame points (metres) an advised window must hold (the
+    run's stations, or its start and goal).
     """
     edges = plan.edge_count()
     if edges > MAX_EDGES:
         raise LimitExceeded(f"the plan has {edges:,} obstacle edges, above the limit of {MAX_EDGES:,} for one run; "
-                            f"{_window_text(plan, window_budget(n_slices))} (drawing units), or keep only the plan "
-                            "layers (--layers)", plan.source)
+                            f"{_window_text(plan, window_budget(n_slices), keep)} (drawing units), or keep only "
+                            "the plan layers (--layers)", plan.source)
     if edges * n_slices > MAX_EDGE_SLICES:
         step = advised_step_deg(edges, slices_for_step)
         if step is not None:
             advice = f"use a coarser --heading-step (e.g. {step:g}°) or crop with --window"
         else:
-            advice = _window_text(plan, window_budget(n_slices)) + " (drawing units)"
+            advice = _window_text(plan, window_budget(n_slices), keep) + " (drawing units)"
         raise LimitExceeded(f"{edges:,} obstacle edges × {n_slices} heading slices is above the limit of "
                             f"{MAX_EDGE_SLICES:,} for one run; {advice}", plan.source)
