@@ -66,11 +66,26 @@ class _Obstacles:
         floor_geoms = self.geoms[self.floor] if len(self.geoms) else self.geoms
         self.floor_union = shapely.STRtree(floor_geoms) if len(floor_geoms) else None
         self.floor_geoms = floor_geoms
+        self._clipped: dict[tuple[float, ...], tuple[list, list, list]] = {}
 
     def in_box(self, box: tuple[float, float, float, float]) -> np.ndarray:
         if self.tree is None:
             return np.zeros(0, dtype=int)
         return np.sort(self.tree.query(shapely.box(*box)))
+
+    def clipped(self, box: tuple[float, float, float, float]) -> tuple[list, list, list]:
+        """The floor solids, floor linework and overhead obstacles that meet ``box`` (local frame, m),
+        each cut to the box, in obstacle order; worked out once per box (a sheet's close-up in
+        report.html and in report.pdf share it)."""
+        key = tuple(float(v) for v in box)
+        if key not in self._clipped:
+            idx = self.in_box(key)
+            cut = shapely.intersection(self.geoms[idx], shapely.box(*key)) if len(idx) else np.zeros(0, dtype=object)
+            floor = self.floor[idx]
+            kind = self.kind[idx]
+            self._clipped[key] = (list(cut[(kind == "solid") & floor]), list(cut[(kind == "linework") & floor]),
+                                  list(cut[~floor]))
+        return self._clipped[key]
 
     def nearest_bound(self, side: str, lx: float, ly: float, *, floor_only: bool = True) -> Bound | None:
         if self.tree is None:

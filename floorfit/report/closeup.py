@@ -25,7 +25,7 @@ from matplotlib.patches import Circle, PathPatch, Rectangle
 
 from floorfit.report.bounding_entities import _Obstacles
 from floorfit.report.figures import _line_segments, _polygon_path
-from floorfit.report.geometry import parts
+from floorfit.report.geometry import add_polygon_patch, parts
 from floorfit.report.kinds import kind_style, numbered_findings, plain_text
 from floorfit.report.sheets import _CIRCLE_NEED, VIEWPORT_MM, Dimension, Pose, Sheet, _placed, _unit
 
@@ -66,12 +66,12 @@ def _scale_bar(ax: Any, box: tuple[float, float, float, float], scale: int) -> N
     pad = 0.04 * (y1 - y0)
     bx, by = x0 + pad, y0 + pad
     h = 1.6 * scale / 1000.0          # 1.6 mm on paper
-    ax.add_patch(Rectangle((bx - 0.3 * pad, by - 0.3 * pad), length + 0.6 * pad + 0.3 * (x1 - x0) * 0.0,
-                           h + 3.2 * scale / 1000.0 + 0.6 * pad, facecolor="#ffffff", edgecolor="none",
-                           alpha=0.9, zorder=20))
+    add_polygon_patch(ax, Rectangle((bx - 0.3 * pad, by - 0.3 * pad), length + 0.6 * pad + 0.3 * (x1 - x0) * 0.0,
+                                    h + 3.2 * scale / 1000.0 + 0.6 * pad, facecolor="#ffffff", edgecolor="none",
+                                    alpha=0.9, zorder=20))
     for i in range(n):
-        ax.add_patch(Rectangle((bx + i * step, by), step, h, facecolor=_DIM if i % 2 == 0 else "#ffffff",
-                               edgecolor=_DIM, linewidth=0.5, zorder=21))
+        add_polygon_patch(ax, Rectangle((bx + i * step, by), step, h, facecolor=_DIM if i % 2 == 0 else "#ffffff",
+                                        edgecolor=_DIM, linewidth=0.5, zorder=21))
     label = f"{length:g} m" if length >= 1 else f"{length * 1000:g} mm"
     ax.text(bx, by + h + 0.6 * scale / 1000.0, "0", fontsize=6, ha="center", va="bottom", color=_DIM, zorder=22)
     ax.text(bx + length, by + h + 0.6 * scale / 1000.0, label, fontsize=6, ha="center", va="bottom",
@@ -129,14 +129,10 @@ def draw_closeup(ax: Any, result: Any, sheet: Sheet,  # noqa: C901  (one drawing
     obst = obstacles or _Obstacles(plan)
     pad = 0.05 * max(x1 - x0, y1 - y0)
     local_box = (x0 - ox - pad, y0 - oy - pad, x1 - ox + pad, y1 - oy + pad)
-    idx = obst.in_box(local_box)
-    clip = shapely.box(*local_box)
-    solids = [shapely.intersection(obst.geoms[i], clip) for i in idx if obst.kind[i] == "solid" and obst.floor[i]]
-    walls = [shapely.intersection(obst.geoms[i], clip) for i in idx if obst.kind[i] == "linework" and obst.floor[i]]
-    over = [shapely.intersection(obst.geoms[i], clip) for i in idx if not obst.floor[i]]
+    solids, walls, over = obst.clipped(local_box)
     path = _polygon_path(solids, shift)
     if path is not None:
-        ax.add_patch(PathPatch(path, facecolor=_SOLID_FACE, edgecolor=_WALL, linewidth=0.6, zorder=2))
+        add_polygon_patch(ax, PathPatch(path, facecolor=_SOLID_FACE, edgecolor=_WALL, linewidth=0.6, zorder=2))
     segs = _line_segments(walls, shift)
     if segs:
         ax.add_collection(LineCollection(segs, colors=_WALL, linewidths=1.1, zorder=3, capstyle="butt"))
@@ -161,8 +157,8 @@ def draw_closeup(ax: Any, result: Any, sheet: Sheet,  # noqa: C901  (one drawing
         polys = [p for p in parts(g) if isinstance(p, shapely.Polygon)]
         p = _polygon_path(polys, shift)
         if p is not None:
-            ax.add_patch(PathPatch(p, facecolor=style.colour, alpha=0.18, edgecolor=style.colour, linewidth=0.6,
-                                   zorder=5))
+            add_polygon_patch(ax, PathPatch(p, facecolor=style.colour, alpha=0.18, edgecolor=style.colour,
+                                            linewidth=0.6, zorder=5))
     for x, y, dia, label, colour in sheet.circles:
         ax.add_patch(Circle((x, y), dia / 2, facecolor="none", edgecolor=colour, linewidth=1.0,
                             linestyle=(0, (5, 2)) if colour == _CIRCLE_NEED else "-", zorder=9))
@@ -214,17 +210,18 @@ def _draw_pose(ax: Any, vehicle: Any, pose: Pose) -> None:
                       pose.x, pose.y, pose.heading_deg)
         p = _polygon_path([env], np.zeros(2))
         if p is not None:
-            ax.add_patch(PathPatch(p, facecolor="none", edgecolor=kind_style("tight").colour, linewidth=0.9,
-                                   linestyle=(0, (4, 2)), zorder=10))
+            add_polygon_patch(ax, PathPatch(p, facecolor="none", edgecolor=kind_style("tight").colour, linewidth=0.9,
+                                            linestyle=(0, (4, 2)), zorder=10))
     fp = _placed(vehicle.footprint, pose.x, pose.y, pose.heading_deg)
     body = _placed(vehicle.outline, pose.x, pose.y, pose.heading_deg)
     p = _polygon_path([fp], np.zeros(2))
     if p is not None:
-        ax.add_patch(PathPatch(p, facecolor=_POSE_FACE, edgecolor=_POSE_EDGE, linewidth=0.6,
-                               linestyle=(0, (2, 1.5)), alpha=0.9, zorder=10))
+        add_polygon_patch(ax, PathPatch(p, facecolor=_POSE_FACE, edgecolor=_POSE_EDGE, linewidth=0.6,
+                                        linestyle=(0, (2, 1.5)), alpha=0.9, zorder=10))
     p = _polygon_path([body], np.zeros(2))
     if p is not None:
-        ax.add_patch(PathPatch(p, facecolor="#a9c3dc", edgecolor=_POSE_EDGE, linewidth=1.0, alpha=0.85, zorder=11))
+        add_polygon_patch(ax, PathPatch(p, facecolor="#a9c3dc", edgecolor=_POSE_EDGE, linewidth=1.0, alpha=0.85,
+                                        zorder=11))
     h = math.radians(pose.heading_deg)
     length = 0.45 * max(float(getattr(vehicle, "length_m", 1.0)), 0.2)
     ax.annotate("", xy=(pose.x + length * math.cos(h), pose.y + length * math.sin(h)), xytext=(pose.x, pose.y),

@@ -29,10 +29,9 @@ from matplotlib.colors import ListedColormap
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Circle, Patch, PathPatch, Rectangle
-from matplotlib.path import Path
 from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
-from floorfit.report.geometry import parts
+from floorfit.report.geometry import add_polygon_patch, line_segments, parts, polygon_path
 from floorfit.report.kinds import kind_style, numbered_findings, plain_text
 
 __all__ = [
@@ -90,41 +89,8 @@ class FigureImage:
 _parts = parts
 
 
-def _polygon_path(geoms: Iterable[Any], shift: np.ndarray) -> Path | None:
-    """One compound path of all polygons (holes kept: rings oriented for nonzero fill)."""
-    verts, codes = [], []
-    for g in geoms:
-        for part in _parts(g):
-            if not isinstance(part, shapely.Polygon):
-                continue
-            part = shapely.orient_polygons(part)
-            for ring in [part.exterior, *part.interiors]:
-                xy = np.asarray(ring.coords)[:, :2] + shift
-                if len(xy) < 3:
-                    continue
-                verts.append(xy)
-                codes.append(np.r_[Path.MOVETO, np.full(len(xy) - 2, Path.LINETO), Path.CLOSEPOLY])
-    if not verts:
-        return None
-    return Path(np.vstack(verts), np.concatenate(codes).astype(np.uint8))
-
-
-def _line_segments(geoms: Iterable[Any], shift: np.ndarray) -> list[np.ndarray]:
-    """Coordinate arrays of all linework (LineStrings, rings of polygons) shifted by ``shift``."""
-    lines = []
-    for g in geoms:
-        for part in _parts(g):
-            if isinstance(part, shapely.Polygon):
-                rings = [part.exterior, *part.interiors]
-            elif isinstance(part, (shapely.LineString, shapely.LinearRing)):
-                rings = [part]
-            else:
-                continue
-            for ring in rings:
-                xy = np.asarray(ring.coords)[:, :2]
-                if len(xy) >= 2:
-                    lines.append(xy + shift)
-    return lines
+_polygon_path = polygon_path
+_line_segments = line_segments
 
 
 def _origin(plan: Any) -> np.ndarray:
@@ -219,8 +185,8 @@ def _draw_obstacles(ax: Any, plan: Any, *, faint: bool = False) -> None:
     shift = _origin(plan)
     path = _polygon_path(plan.solids, shift)
     if path is not None:
-        ax.add_patch(PathPatch(path, facecolor="#c9c9c9" if faint else _SOLID,
-                               edgecolor=_WALL, linewidth=0.4, zorder=2))
+        add_polygon_patch(ax, PathPatch(path, facecolor="#c9c9c9" if faint else _SOLID,
+                                        edgecolor=_WALL, linewidth=0.4, zorder=2))
     segments = _line_segments(plan.walls, shift)
     if segments:
         ax.add_collection(LineCollection(segments, colors=_WALL, linewidths=0.5 if faint else 0.8,
@@ -270,8 +236,8 @@ def _draw_finding_geometry(ax: Any, result: Any) -> None:
         style = kind_style(f.kind)
         path = _polygon_path([f.geometry], shift)
         if path is not None:
-            ax.add_patch(PathPatch(path, facecolor=style.colour, alpha=0.35, edgecolor=style.colour,
-                                   linewidth=1.0, zorder=6))
+            add_polygon_patch(ax, PathPatch(path, facecolor=style.colour, alpha=0.35, edgecolor=style.colour,
+                                            linewidth=1.0, zorder=6))
         lines = [ln for part in _parts(f.geometry) if not isinstance(part, shapely.Polygon)
                  for ln in _line_segments([part], shift)]
         if lines:
@@ -363,7 +329,7 @@ def turnability_figure(result: Any) -> Figure | None:
     for key, _text, colour in present:
         path = _polygon_path([result.turnability[key]], shift)
         if path is not None:
-            patch = ax.add_patch(PathPatch(path, facecolor=colour, edgecolor="none", zorder=1))
+            patch = add_polygon_patch(ax, PathPatch(path, facecolor=colour, edgecolor="none", zorder=1))
             _clip_to_drawing(ax, result.plan, patch)
     _draw_obstacles(ax, result.plan, faint=True)
     _draw_stations(ax, result.stations, 0.05 * (box[2] - box[0]))
@@ -426,8 +392,8 @@ def routes_figure(result: Any, routes: list[dict]) -> Figure | None:
         swept = route.get("swept")
         path = _polygon_path([swept], shift) if swept is not None else None
         if path is not None:
-            ax.add_patch(PathPatch(path, facecolor="#86bfdf", alpha=0.5, edgecolor="#27608f",
-                                   linewidth=0.6, zorder=4))
+            add_polygon_patch(ax, PathPatch(path, facecolor="#86bfdf", alpha=0.5, edgecolor="#27608f",
+                                            linewidth=0.6, zorder=4))
         pts = np.asarray(route.get("path", np.empty((0, 3))), dtype=float).reshape(-1, 3)
         if len(pts):
             ax.plot(pts[:, 0], pts[:, 1], color="#27608f", linewidth=1.2, zorder=7)
@@ -464,12 +430,12 @@ def traffic_figure(result: Any) -> Figure | None:
     places, stretches = traffic.get("passing_places", []), traffic.get("stretches", [])
     path = _polygon_path([p["geometry"] for p in places], shift)
     if path is not None:
-        ax.add_patch(PathPatch(path, facecolor=_PASS_FILL, edgecolor=_PASS_EDGE, hatch="///", linewidth=0.7,
-                               zorder=4))
+        add_polygon_patch(ax, PathPatch(path, facecolor=_PASS_FILL, edgecolor=_PASS_EDGE, hatch="///", linewidth=0.7,
+                                        zorder=4))
     path = _polygon_path([s["geometry"] for s in stretches], shift)
     if path is not None:
-        ax.add_patch(PathPatch(path, facecolor=style.colour, alpha=0.45, edgecolor=style.colour, linewidth=1.0,
-                               zorder=5))
+        add_polygon_patch(ax, PathPatch(path, facecolor=style.colour, alpha=0.45, edgecolor=style.colour, linewidth=1.0,
+                                        zorder=5))
     for s in stretches:
         (ax0, ay0), (ax1, ay1) = s["narrowest"]
         ax.plot([ax0, ax1], [ay0, ay1], color="#111111", linewidth=1.4, zorder=6, solid_capstyle="butt")
@@ -497,12 +463,12 @@ def vehicle_figure(vehicle: Any) -> Figure:
     shift = np.zeros(2)
     foot = _polygon_path([vehicle.footprint], shift)
     if foot is not None:
-        ax.add_patch(PathPatch(foot, facecolor="#f3cf94", edgecolor="#a8741a", linewidth=0.8,
-                               linestyle=(0, (4, 2)), label=f"with margin {vehicle.margin_m:g} m"))
+        add_polygon_patch(ax, PathPatch(foot, facecolor="#f3cf94", edgecolor="#a8741a", linewidth=0.8,
+                                        linestyle=(0, (4, 2)), label=f"with margin {vehicle.margin_m:g} m"))
     body = _polygon_path([vehicle.outline], shift)
     if body is not None:
-        ax.add_patch(PathPatch(body, facecolor="#27608f", alpha=0.85, edgecolor="#1b3d5c",
-                               linewidth=1.0, label="outline"))
+        add_polygon_patch(ax, PathPatch(body, facecolor="#27608f", alpha=0.85, edgecolor="#1b3d5c",
+                                        linewidth=1.0, label="outline"))
     ax.plot([0], [0], marker="+", markersize=12, color="#ffffff", markeredgewidth=2, zorder=5)
     ax.plot([0], [0], marker="+", markersize=10, color="#111111", markeredgewidth=1, zorder=6,
             linestyle="none", label="reference point")

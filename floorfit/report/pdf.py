@@ -47,6 +47,7 @@ from floorfit.report.figures import (
     _view_box,
     shown_turn_classes,
 )
+from floorfit.report.geometry import add_polygon_patch
 from floorfit.report.kinds import kind_style, plain_text
 from floorfit.report.project import ProjectInfo, TitleBlock, source_datetime, title_block
 from floorfit.report.sheets import Sheet, build_sheets
@@ -123,8 +124,8 @@ def _axes_mm(fig: Figure, layout: PageLayout, x: float, y: float, w: float, h: f
 def _header(ax: Any, layout: PageLayout, kicker: str, title: str, colour: str = _BAND) -> None:
     m = layout.margin
     top = layout.height - m
-    ax.add_patch(Rectangle((m, top - layout.header), layout.width - 2 * m, layout.header, facecolor=colour,
-                           edgecolor="none"))
+    add_polygon_patch(ax, Rectangle((m, top - layout.header), layout.width - 2 * m, layout.header, facecolor=colour,
+                                    edgecolor="none"))
     ax.text(m + 5, top - 3.6, kicker, fontsize=7, color="#ffffff", va="center", ha="left", alpha=0.85,
             parse_math=False)
     ax.text(m + 5, top - 8.6, title, fontsize=12.5, color="#ffffff", va="center", ha="left", fontweight="bold",
@@ -136,7 +137,7 @@ def _footer(ax: Any, layout: PageLayout, tb: TitleBlock, page: int, pages: int) 
     x0, x1 = m, layout.width - m
     y0 = m + layout.footer
     h = layout.title_block
-    ax.add_patch(Rectangle((x0, y0), x1 - x0, h, facecolor="none", edgecolor=_INK, linewidth=0.8))
+    add_polygon_patch(ax, Rectangle((x0, y0), x1 - x0, h, facecolor="none", edgecolor=_INK, linewidth=0.8))
     cells = tb.cells()
     top_cells = cells[:6]
     low_cells = cells[6:]
@@ -165,7 +166,7 @@ def _fit(text: str, width_mm: float, size: float) -> str:
 
 
 def _cell(ax: Any, x: float, y: float, w: float, h: float, label: str, value: str, big: bool = False) -> None:
-    ax.add_patch(Rectangle((x, y), w, h, facecolor="none", edgecolor=_INK, linewidth=0.4))
+    add_polygon_patch(ax, Rectangle((x, y), w, h, facecolor="none", edgecolor=_INK, linewidth=0.4))
     ax.text(x + 1.2, y + h - 1.6, label.upper(), fontsize=4.6, color=_MUTED, va="top", ha="left",
             parse_math=False)
     size = 11.0 if big else 6.6
@@ -202,9 +203,9 @@ def _cover(result: Any, layout: PageLayout, tb: TitleBlock, sheets: Sequence[She
     px = layout.width - m - layout.panel
     y = layout.content_top
     passed = bool(result.passed)
-    ax.add_patch(Rectangle((px, y - 16), layout.panel, 16, facecolor="#e3f3ee" if passed else "#fbe9e3",
-                           edgecolor=_OK if passed else _BAD, linewidth=0.8))
-    ax.add_patch(Rectangle((px, y - 16), 2.2, 16, facecolor=_OK if passed else _BAD, edgecolor="none"))
+    add_polygon_patch(ax, Rectangle((px, y - 16), layout.panel, 16, facecolor="#e3f3ee" if passed else "#fbe9e3",
+                                    edgecolor=_OK if passed else _BAD, linewidth=0.8))
+    add_polygon_patch(ax, Rectangle((px, y - 16), 2.2, 16, facecolor=_OK if passed else _BAD, edgecolor="none"))
     ax.text(px + 5, y - 5.2, "PASSES" if passed else "DOES NOT PASS", fontsize=15, fontweight="bold",
             color=_OK if passed else _BAD, va="center", ha="left")
     pairs = unreachable_pairs(result)
@@ -298,8 +299,8 @@ def _finding_sheet(result: Any, layout: PageLayout, tb: TitleBlock, sheet: Sheet
     _header(ax, layout, f"finding sheet · {sheet.number} of {len(result.findings)} · {f.id}",
             _fit(f"{sheet.number}  {st.title} ({f.cause}) · {where}", layout.width - 2 * layout.margin - 8, 12.5),
             colour=_BAND)
-    ax.add_patch(Rectangle((layout.margin, layout.height - layout.margin - layout.header), 3.0, layout.header,
-                           facecolor=st.colour, edgecolor="none"))
+    add_polygon_patch(ax, Rectangle((layout.margin, layout.height - layout.margin - layout.header), 3.0, layout.header,
+                                    facecolor=st.colour, edgecolor="none"))
     m = layout.margin
     vw, vh = layout.viewport
     vy = layout.content_top - vh
@@ -503,7 +504,7 @@ def _turn_map_page(result: Any, layout: PageLayout, tb: TitleBlock, page: int, p
     y = layout.content_top
     y = _heading(ax, lx, y, "legend", 64)
     for _k, text, colour in classes:
-        ax.add_patch(Rectangle((lx, y - 3.0), 4, 3, facecolor=colour, edgecolor=_RULE, linewidth=0.4))
+        add_polygon_patch(ax, Rectangle((lx, y - 3.0), 4, 3, facecolor=colour, edgecolor=_RULE, linewidth=0.4))
         ax.text(lx + 6, y - 0.2, text, fontsize=7, va="top", color=_INK)
         y -= 4.6
     _wrapped(ax, lx, y - 2, 64, f"Map cells of {cell * 100:.0f} cm (the only raster image in this report). "

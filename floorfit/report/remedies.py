@@ -107,6 +107,18 @@ class RemedyContext:
             return math.inf
         return self.index.nearest(lx, ly)[0]
 
+    def clearances(self, points: list[tuple[float, float]]) -> list[float]:
+        """:meth:`clearance_at` (m) of each (x, y) of ``points`` (local frame), in one tree search."""
+        if self.index is None or not len(self.index.geoms):
+            return [math.inf] * len(points)
+        if not points:
+            return []
+        xy = np.asarray(points, dtype=float)
+        pts = shapely.points(xy[:, 0], xy[:, 1])
+        # as ObstacleIndex.nearest, point by point: the nearest obstacle, its nearest point, the distance
+        near = shapely.get_point(shapely.shortest_line(self.index.geoms[self.index.tree.nearest(pts)], pts), 0)
+        return shapely.distance(pts, near).tolist()
+
     def turn_circle(self, vehicle: Any | None = None) -> tuple[np.ndarray, float, str] | None:
         vehicle = vehicle or self.result.vehicle
         try:
@@ -149,20 +161,52 @@ class RemedyContext:
         ix, iy = int((lx - x0) / cell), int((ly - y0) / cell)
         if not (0 <= ix < nx and 0 <= iy < ny):
             return None
-        a, b = max(iy - r, 0), min(iy + r + 1, ny)
-        c, d = max(ix - r, 0), min(ix + r + 1, nx)
-        walk, goal = fits[a:b, c:d].copy(), turn[a:b, c:d]
-        if not goal.any():
+        window = (max(iy - r, 0), min(iy + r + 1, ny), max(ix - r, 0), min(ix + r + 1, nx))
+        a, b, c, d = window
+        if not turn[a:b, c:d].any():
             return None
-        sy, sx = iy - a, ix - c
-        walk[sy, sx] = True
-        dist = _geodesic(walk, sy, sx)
-        dist = np.where(goal, dist, np.inf)
+        found = _nearest_goal(fits, turn, iy, ix, window)
+        if found is None:
+            return None
+        gy, gx, steps = found
+        return (x0 + (gx + 0.5) * cell, y0 + (gy + 0.5) * cell, steps * cell)
+
+
+#: Half-widths (map cells) of the growing windows :func:`_nearest_goal` searches before the whole one.
+_GROWING_WINDOWS = (32, 128, 512)
+
+
+def _nearest_goal(walk: np.ndarray, goal: np.ndarray, iy: int, ix: int,
+                  window: tuple[int, int, int, int]) -> tuple[int, int, float] | None:
+    """(row, column, steps) of the goal cell nearest to cell (iy, ix) along True cells of ``walk``
+    (steps 1 straight, √2 diagonal, the start cell always walkable), searched inside the rows
+    ``window[0]:window[1]`` and columns ``window[2]:window[3]``; None when no goal is reached.
+
+    The search first runs in growing square windows round the start: a walk of ``k`` steps or
+    less stays within ``k`` cells of the start in each direction, so a goal found at most the
+    window's half-width away is the one (and its step count the one) the whole window gives,
+    ties going to the same cell (the first in row order)."""
+    a0, b0, c0, d0 = window
+    for half in (*[h for h in _GROWING_WINDOWS if h < max(b0 - a0, d0 - c0)], None):
+        if half is None:
+            a, b, c, d = a0, b0, c0, d0
+        else:
+            a, b, c, d = max(iy - half, a0), min(iy + half + 1, b0), max(ix - half, c0), min(ix + half + 1, d0)
+        g = goal[a:b, c:d]
+        if not g.any():
+            continue
+        w = walk[a:b, c:d].copy()
+        w[iy - a, ix - c] = True
+        dist = np.where(g, _geodesic(w, iy - a, ix - c), np.inf)
         k = int(np.argmin(dist))
-        if not math.isfinite(float(dist.flat[k])):
+        best = float(dist.flat[k])
+        if half is not None and not best <= half:
+            continue                      # a nearer goal may lie outside this window
+        if not math.isfinite(best):
             return None
         gy, gx = np.unravel_index(k, dist.shape)
-        return (x0 + (gx + c + 0.5) * cell, y0 + (gy + a + 0.5) * cell, float(dist.flat[k]) * cell)
+        return int(gy) + a, int(gx) + c, best
+    return None
 
 
 def _geodesic(walk: np.ndarray, sy: int, sx: int) -> np.ndarray:
@@ -302,7 +346,8 @@ def _widest_spot(ctx: RemedyContext, stretch: Any | None, lx: float, ly: float) 
     grid samples moved to the middle of the clear width through them."""
     samples = [(ctx.clearance_at(lx, ly), lx, ly)]
     if stretch is not None and not stretch.is_empty:
-        samples += [(ctx.clearance_at(px, py), px, py) for px, py in _sample_points(stretch, ctx.map_cell)]
+        pts = _sample_points(stretch, ctx.map_cell)
+        samples += [(c, px, py) for c, (px, py) in zip(ctx.clearances(pts), pts)]
     samples.sort(key=lambda t: -t[0])
     best = samples[0]
     for _c, px, py in samples[:8]:

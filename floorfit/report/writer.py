@@ -199,7 +199,10 @@ def _sync_folder(folder: Path) -> None:
 
 
 def _render(result: Any, chosen: list[str], progress: Progress, project: Any = None,
-            paper: str = "a4") -> dict[str, bytes]:
+            paper: str = "a4", workers: int | None = None) -> dict[str, bytes]:
+    """The bytes of every chosen file. report.pdf is drawn in a second process while this one draws
+    the others where ``workers`` (None: the usable cores) allows it (:mod:`floorfit.report.apart`);
+    the bytes are the same either way."""
     # Imported here so that `import floorfit.report` stays light.
     from floorfit.report.figures import draw_report_figures
     from floorfit.report.html import render_html
@@ -208,6 +211,7 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
 
     contents: dict[str, bytes] = {}
     sheets = None
+    pending = None
     if "html" in chosen or "pdf" in chosen:
         from floorfit.report.bounding_entities import sheet_obstacles
         from floorfit.report.pdf import page_layout
@@ -216,34 +220,45 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
         layout = page_layout(paper)
         obstacles = sheet_obstacles(result)
         sheets = build_sheets(result, viewport_mm=layout.viewport, obstacles=obstacles)
-    if "html" in chosen:
-        from floorfit.report.sheets_html import closeup_images
+    try:
+        if "pdf" in chosen:
+            from floorfit.report.apart import start
+            from floorfit.report.pdf import render_pdf
 
-        progress.stage("drawing figures")
-        images = draw_report_figures(result)
-        images += closeup_images(result, sheets, layout.viewport, obstacles)
-        progress.stage("composing report.html")
-        contents["html"] = render_html(result, images, sheets=sheets,
-                                       sheet_viewport_mm=layout.viewport).encode("utf-8")
-    if "pdf" in chosen:
-        from floorfit.report.pdf import render_pdf
+            pending = start(render_pdf, result, workers=workers, project=project, paper=paper, sheets=sheets,
+                            obstacles=obstacles)
+        if "html" in chosen:
+            from floorfit.report.sheets_html import closeup_images
 
-        progress.stage("drawing report.pdf")
-        contents["pdf"] = render_pdf(result, project=project, paper=paper, sheets=sheets, obstacles=obstacles)
-    if "csv" in chosen:
-        progress.stage("tabulating findings.csv")
-        contents["csv"] = findings_csv(result)
-        if getattr(result, "traffic", None) is not None:
-            from floorfit.report.tables import traffic_csv
+            progress.stage("drawing figures")
+            images = draw_report_figures(result)
+            images += closeup_images(result, sheets, layout.viewport, obstacles)
+            progress.stage("composing report.html")
+            contents["html"] = render_html(result, images, sheets=sheets,
+                                           sheet_viewport_mm=layout.viewport).encode("utf-8")
+        if pending is not None and not pending.apart:
+            progress.stage("drawing report.pdf")        # drawn here, in its usual place
+            contents["pdf"] = pending.result()
+        if "csv" in chosen:
+            progress.stage("tabulating findings.csv")
+            contents["csv"] = findings_csv(result)
+            if getattr(result, "traffic", None) is not None:
+                from floorfit.report.tables import traffic_csv
 
-            contents["traffic"] = traffic_csv(result)
-    if "dxf" in chosen:
-        progress.stage("drawing overlay.dxf")
-        contents["dxf"] = overlay_dxf(result)
-    if "bcf" in chosen:
-        from floorfit.report.bcf import findings_bcf
-        progress.stage("writing findings.bcf")
-        contents["bcf"] = findings_bcf(result)
+                contents["traffic"] = traffic_csv(result)
+        if "dxf" in chosen:
+            progress.stage("drawing overlay.dxf")
+            contents["dxf"] = overlay_dxf(result)
+        if "bcf" in chosen:
+            from floorfit.report.bcf import findings_bcf
+            progress.stage("writing findings.bcf")
+            contents["bcf"] = findings_bcf(result)
+        if pending is not None and "pdf" not in contents:
+            progress.stage("drawing report.pdf (second process)")
+            contents["pdf"] = pending.result()
+    finally:
+        if pending is not None:
+            pending.cancel()
     progress.stage("writing findings.json")
     contents["json"] = findings_json(result, [_file_name(f) for f in chosen]
                                      + ([TRAFFIC_FILE] if "traffic" in contents else []))
@@ -252,7 +267,8 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
 
 def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False,
                  formats: Iterable[str] = ("html", "json", "csv", "dxf", "pdf"),
-                 quiet: bool = False, project: Any = None, paper: str = "a4") -> dict[str, Path]:
+                 quiet: bool = False, project: Any = None, paper: str = "a4",
+                 workers: int | None = None) -> dict[str, Path]:
     """Write the report files of ``result`` (a :class:`~floorfit.analysis.findings.CheckResult`)
     into ``out_dir`` and return ``{format: path}`` of the files written.
 
@@ -273,6 +289,10 @@ def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False
         Project fields for the PDF's cover and title blocks (:mod:`floorfit.report.project`).
     paper : str
         ``"a4"`` (default), ``"letter"`` or ``"a3"``: the PDF's paper, printed landscape.
+    workers : int, optional
+        Processes for drawing: with 2 or more (default: the usable cores) report.pdf is drawn in a
+        second process while this one draws the other files; 1 draws everything here. The files
+        are the same either way.
     """
     out_dir = Path(out_dir)
     chosen = _check_formats((formats,) if isinstance(formats, str) else formats, out_dir)
@@ -293,7 +313,7 @@ def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False
 
     if project is not None and not isinstance(project, ProjectInfo):
         project = ProjectInfo.from_mapping(project)
-    contents = _render(result, chosen, progress, project, paper)
+    contents = _render(result, chosen, progress, project, paper, workers)
 
     progress.stage(f"saving to {out_dir}")
     temps: dict[str, Path] = {}
