@@ -204,13 +204,13 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
     the others where ``workers`` (None: the usable cores) allows it (:mod:`floorfit.report.apart`);
     the bytes are the same either way."""
     # Imported here so that `import floorfit.report` stays light.
-    from floorfit.report.figures import draw_report_figures
-    from floorfit.report.html import render_html
-    from floorfit.report.overlay import overlay_dxf
-    from floorfit.report.tables import findings_csv, findings_json
+    from floorfit.report.figures import draw_report_figures  # noqa: F401  (loaded before the stages start)
+    from floorfit.report.html import render_html  # noqa: F401
+    from floorfit.report.overlay import overlay_dxf  # noqa: F401
+    from floorfit.report.tables import findings_json
 
     contents: dict[str, bytes] = {}
-    sheets = None
+    sheets = obstacles = layout = None
     pending = None
     if "html" in chosen or "pdf" in chosen:
         from floorfit.report.bounding_entities import sheet_obstacles
@@ -228,31 +228,11 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
             pending = start(render_pdf, result, workers=workers, project=project, paper=paper, sheets=sheets,
                             obstacles=obstacles)
         if "html" in chosen:
-            from floorfit.report.sheets_html import closeup_images
-
-            progress.stage("drawing figures")
-            images = draw_report_figures(result)
-            images += closeup_images(result, sheets, layout.viewport, obstacles)
-            progress.stage("composing report.html")
-            contents["html"] = render_html(result, images, sheets=sheets,
-                                           sheet_viewport_mm=layout.viewport).encode("utf-8")
+            contents["html"] = _html(result, progress, sheets, layout, obstacles)
         if pending is not None and not pending.apart:
             progress.stage("drawing report.pdf")        # drawn here, in its usual place
             contents["pdf"] = pending.result()
-        if "csv" in chosen:
-            progress.stage("tabulating findings.csv")
-            contents["csv"] = findings_csv(result)
-            if getattr(result, "traffic", None) is not None:
-                from floorfit.report.tables import traffic_csv
-
-                contents["traffic"] = traffic_csv(result)
-        if "dxf" in chosen:
-            progress.stage("drawing overlay.dxf")
-            contents["dxf"] = overlay_dxf(result)
-        if "bcf" in chosen:
-            from floorfit.report.bcf import findings_bcf
-            progress.stage("writing findings.bcf")
-            contents["bcf"] = findings_bcf(result)
+        contents.update(_tables_and_overlay(result, chosen, progress))
         if pending is not None and "pdf" not in contents:
             progress.stage("drawing report.pdf (second process)")
             contents["pdf"] = pending.result()
@@ -263,6 +243,44 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
     contents["json"] = findings_json(result, [_file_name(f) for f in chosen]
                                      + ([TRAFFIC_FILE] if "traffic" in contents else []))
     return contents
+
+
+def _html(result: Any, progress: Progress, sheets: Any, layout: Any, obstacles: Any) -> bytes:
+    """report.html: the figures, the sheets' close-ups, the page."""
+    from floorfit.report.figures import draw_report_figures
+    from floorfit.report.html import render_html
+    from floorfit.report.sheets_html import closeup_images
+
+    progress.stage("drawing figures")
+    images = draw_report_figures(result)
+    images += closeup_images(result, sheets, layout.viewport, obstacles)
+    progress.stage("composing report.html")
+    return render_html(result, images, sheets=sheets, sheet_viewport_mm=layout.viewport).encode("utf-8")
+
+
+def _tables_and_overlay(result: Any, chosen: list[str], progress: Progress) -> dict[str, bytes]:
+    """findings.csv (and traffic.csv), overlay.dxf and findings.bcf, as chosen."""
+    out: dict[str, bytes] = {}
+    if "csv" in chosen:
+        from floorfit.report.tables import findings_csv
+
+        progress.stage("tabulating findings.csv")
+        out["csv"] = findings_csv(result)
+        if getattr(result, "traffic", None) is not None:
+            from floorfit.report.tables import traffic_csv
+
+            out["traffic"] = traffic_csv(result)
+    if "dxf" in chosen:
+        from floorfit.report.overlay import overlay_dxf
+
+        progress.stage("drawing overlay.dxf")
+        out["dxf"] = overlay_dxf(result)
+    if "bcf" in chosen:
+        from floorfit.report.bcf import findings_bcf
+
+        progress.stage("writing findings.bcf")
+        out["bcf"] = findings_bcf(result)
+    return out
 
 
 def write_report(result: Any, out_dir: str | os.PathLike, *, force: bool = False,
