@@ -13,11 +13,13 @@ of :mod:`floorfit.motion.drivable`, the collision checks those of :mod:`floorfit
 
 from __future__ import annotations
 
+import itertools
 import math
 import time
 from dataclasses import replace
 
 import numpy as np
+import shapely
 from scipy import ndimage
 
 from floorfit.cspace.headings import arc_deg
@@ -131,33 +133,55 @@ def plan_car_subdivision(slices: SliceSet, vehicle: Vehicle, holonomic_local, *,
     return finish_plan(plan, exact, limits, start, goal)
 
 
-def _car_tools(slices: SliceSet, radius_m: float, limits: DriveLimits, check: ExactSliceCheck):
+def _car_tools(slices: SliceSet, radius_m: float, limits: DriveLimits, check: ExactSliceCheck, box=None):
     """The sampled check and 2-D heuristic grid of a car of radius ``radius_m`` on these slices, as
     :func:`plan_car` would build them, kept with the shared exact check (the station pairs of one
-    check then build them once)."""
-    key = ("car tools", radius_m, limits.check_step_m, limits.check_step_deg, limits.path_step_m)
+    check then build them once). ``box`` (xmin, ymin, xmax, ymax, local m): a search kept inside it
+    only needs them there (see :func:`search_box_tools`)."""
+    key = ("car tools", radius_m, limits.check_step_m, limits.check_step_deg, limits.path_step_m, box)
     if key not in check.shared:
-        sampled = SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg,
-                                   extra_margin_m=chord_error_m(radius_m, limits.path_step_m))
-        check.shared[key] = (sampled, reference_grid(slices, max(0.1, radius_m / 4.0)))
+        margin = chord_error_m(radius_m, limits.path_step_m)
+        if box is None:
+            sampled = SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg, extra_margin_m=margin)
+            check.shared[key] = (sampled, reference_grid(slices, max(0.1, radius_m / 4.0)))
+        else:
+            check.shared[key] = search_box_tools(slices, radius_m, limits, box)
     return check.shared[key]
 
 
+#: Room (m) the sampled check of a boxed search keeps beyond the box besides its erosion margin.
+BOX_CLIP_ROOM_M = 0.5
+
+
+def search_box_tools(slices: SliceSet, radius_m: float, limits: DriveLimits, box):
+    """The sampled check and heuristic grid of a car search kept inside ``box`` (xmin, ymin, xmax, ymax,
+    local m): the free space clipped a little beyond the box (its erosion then answers as the unclipped
+    one everywhere inside the box) and the grid over the box only."""
+    margin = chord_error_m(radius_m, limits.path_step_m)
+    room = limits.check_step_m + margin + BOX_CLIP_ROOM_M
+    clip = (box[0] - room, box[1] - room, box[2] + room, box[3] + room)
+    sampled = SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg, extra_margin_m=margin,
+                               clip_box=clip)
+    return sampled, reference_grid(slices, max(0.1, radius_m / 4.0), box=box)
+
+
 def car_copy(slices: SliceSet, radius_m: float, start_local, goal_local, *, limits: DriveLimits,
-             check: ExactSliceCheck, deadline: float | None = None) -> DrivePlan | None:
+             check: ExactSliceCheck, deadline: float | None = None, box=None) -> DrivePlan | None:
     """A path of turns in place and straights for a differential base that copies a car's path: hybrid
     A* for a car of radius ``radius_m`` that may reverse (within ``first_search_expansions``), its arcs
     made into chords and turns in place (:func:`floorfit.motion.subdivision.arcs_as_turns`), a last
     rotate-drive-rotate onto the goal, shortcut, checked exactly as a whole. Local poses (x m, y m,
-    heading deg). None when there is none within the limits; ``samples`` are not filled."""
+    heading deg). None when there is none within the limits; ``samples`` are not filled. ``box``
+    (xmin, ymin, xmax, ymax, local m): the car search stays inside it (a local copy)."""
     budget = None if deadline is None else deadline - time.perf_counter()
     if budget is not None and budget <= 0.05:
         return None
     car = replace(slices.vehicle, mode="car", reverse=True, min_turn_radius_m=radius_m)
     search = replace(limits, time_limit_s=budget,
                      max_expansions=min(limits.max_expansions, limits.first_search_expansions))
-    sampled, grid = _car_tools(slices, radius_m, limits, check)
-    cp = plan_car(slices, car, start_local, goal_local, limits=search, exact=check, check=sampled, grid=grid)
+    sampled, grid = _car_tools(slices, radius_m, limits, check, box)
+    cp = plan_car(slices, car, start_local, goal_local, limits=search, exact=check, check=sampled, grid=grid,
+                  bounds=box)
     if not cp.found:
         return None
     segs = arcs_as_turns(cp.segments, free=check.free)
@@ -166,7 +190,8 @@ def car_copy(slices: SliceSet, radius_m: float, start_local, goal_local, *, limi
     end = segs[-1].end if segs else cp.segments[0].start
     goal = (goal_local[0], goal_local[1], end[2] + math.radians(float(arc_deg(math.degrees(end[2]), goal_local[2]))))
     if math.hypot(goal[0] - end[0], goal[1] - end[1]) > 1e-9 or abs(goal[2] - end[2]) > 1e-12:
-        tail = next((c for c in differential_steer(True, [])(end, goal)[:4] if check.free(c)), None)
+        tail = next((c for c in itertools.islice(differential_steer(True, [])(end, goal), 4) if check.free(c)),
+                    None)
         if tail is None:
             return None
         segs = segs + tail
@@ -177,11 +202,13 @@ def car_copy(slices: SliceSet, radius_m: float, start_local, goal_local, *, limi
                      f"{radius_m:.2f} m (fewer direction changes than along the holonomic route)")
 
 
-def reference_grid(slices: SliceSet, cell_m: float) -> OccupancyGrid:
+def reference_grid(slices: SliceSet, cell_m: float, box=None) -> OccupancyGrid:
     """Where the reference point can be at some heading (union of the slices' free space),
     on a grid of ``cell_m`` (grown until it has at most :data:`GRID_MAX_CELLS` cells), dilated by one
-    cell so that narrow passages stay open. A search heuristic only (local frame)."""
-    x0, y0, x1, y1 = slices.domain.bounds
+    cell so that narrow passages stay open. A search heuristic only (local frame). ``box`` (xmin,
+    ymin, xmax, ymax, m): the grid covers only that (default the slices' domain)."""
+    x0, y0, x1, y1 = slices.domain.bounds if box is None else box
+    near = None if box is None else shapely.box(*box)
     cell = float(cell_m)
     while math.ceil((x1 - x0) / cell) * math.ceil((y1 - y0) / cell) > GRID_MAX_CELLS:
         cell *= 1.5
@@ -189,6 +216,8 @@ def reference_grid(slices: SliceSet, cell_m: float) -> OccupancyGrid:
     ny = max(1, math.ceil((y1 - y0) / cell))
     free = np.zeros((ny, nx), dtype=bool)
     for comps in slices.components:
+        if len(comps) and near is not None:
+            comps = np.asarray(comps)[shapely.intersects(comps, near)]    # others add pairs of crossings only
         if len(comps):
             free |= fill_polygons(comps, x0, y0, cell, nx, ny)
     free = ndimage.binary_dilation(free, structure=np.ones((3, 3), bool))
@@ -206,7 +235,7 @@ def _search_limit(reason: str) -> str:
 def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, reverse: bool | None = None,
              limits: DriveLimits = _DEFAULT_LIMITS, grid: OccupancyGrid | None = None,
              check: SliceMotionCheck | None = None, holonomic_local=None,
-             exact: ExactSliceCheck | None = None, differential=None) -> DrivePlan:
+             exact: ExactSliceCheck | None = None, differential=None, bounds=None) -> DrivePlan:
     """Car path (arcs at ``vehicle.min_turn_radius_m`` and straights) between local poses
     (x m, y m, heading deg).
 
@@ -222,7 +251,8 @@ def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, rev
     :func:`reference_grid` at a quarter of the turning radius, at least 0.1 m).
     ``check``: a :class:`SliceMotionCheck` of these slices to share between calls (its
     steps must be those of ``limits`` and its extra margin the chord error of the path);
-    ``exact``: an :class:`ExactSliceCheck` to share.
+    ``exact``: an :class:`ExactSliceCheck` to share. ``bounds`` (xmin, ymin, xmax, ymax, m): the
+    hybrid A* search stays inside them (default the slices' domain).
     """
     radius = vehicle.min_turn_radius_m
     if radius is None or not radius > 0:
@@ -237,7 +267,7 @@ def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, rev
         search_limits = replace(limits, max_expansions=min(limits.max_expansions, limits.first_search_expansions))
     exact = exact or ExactSliceCheck(slices, limits.path_step_m, limits.path_step_deg)
     plan = _plan_car_search(slices, vehicle, start_local, goal_local, rev, search_limits, grid, check,
-                            limits.time_limit_s, exact, deadline)
+                            limits.time_limit_s, exact, deadline, bounds)
     if plan.found or not fallback:
         if not plan.found:
             plan.limit = _search_limit(plan.reason)
@@ -257,7 +287,7 @@ def plan_car(slices: SliceSet, vehicle: Vehicle, start_local, goal_local, *, rev
 
 
 def _plan_car_search(slices, vehicle, start_local, goal_local, rev, limits, grid, check, time_limit_s, exact,
-                     deadline) -> DrivePlan:
+                     deadline, bounds=None) -> DrivePlan:
     radius = vehicle.min_turn_radius_m
     t0 = time.perf_counter()
     check = check or SliceMotionCheck(slices, limits.check_step_m, limits.check_step_deg,
@@ -275,7 +305,7 @@ def _plan_car_search(slices, vehicle, start_local, goal_local, rev, limits, grid
     grid_h = grid_heuristic(grid, g[:2])
     weight = float(limits.heuristic_weight)
     result = plan_car_path(s, g, min_turn_radius=radius, reverse=rev, is_free=check.is_free,
-                           bounds=slices.domain.bounds,
+                           bounds=slices.domain.bounds if bounds is None else bounds,
                            goal_tolerance=(limits.goal_tolerance_m, math.radians(limits.goal_tolerance_deg)),
                            xy_resolution=res, heading_bins=limits.heading_bins,
                            max_expansions=limits.max_expansions, time_limit_s=time_limit_s,

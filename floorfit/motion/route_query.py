@@ -317,7 +317,8 @@ def _convert(slices, G, s_loc, g_loc, reverse, limits, check, clearance, deadlin
 
 def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray | None, s_loc, g_loc,
                       *, reverse: bool, limits: DriveLimits, check=None, deadline: float | None = None,
-                      accept_changes: int | None = None, copy_radius_below: float | None = None):
+                      accept_changes: int | None = None, copy_radius_below: float | None = None,
+                      local_first: bool = False):
     """Rotate-and-drive plan for a differential base (local frame; poses in degrees).
 
     Subdivision of the holonomic route recomputed with a clearance of a few centimetres
@@ -329,6 +330,8 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
     with at most this many direction changes is returned as it is, without the search for one with
     fewer (a manoeuvre budget only asks whether the vehicle stays within it). ``copy_radius_below``:
     only car paths of a tighter turning radius (m) are copied (a car whose own search failed).
+    ``local_first``: copy a car's path around the direction changes first (:func:`_local_repair`), over the
+    whole route only when that removed none (much cheaper on long routes; the path may differ).
     """
     import time
 
@@ -343,7 +346,8 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
     dp = _convert(slices, G, s_loc, g_loc, reverse, limits, check, clearance, deadline)
     good_enough = accept_changes is not None and dp is not None and dp.direction_changes <= accept_changes
     if dp is not None and dp.found and reverse and dp.direction_changes > 0 and not good_enough:
-        dp = _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline, copy_radius_below)
+        dp = _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline, copy_radius_below,
+                                      local_first)
     if dp is not None:
         dp.elapsed_s = time.perf_counter() - t0
     return dp
@@ -355,23 +359,183 @@ def differential_plan(slices: SliceSet, G: nx.Graph, holonomic_local: np.ndarray
 VIRTUAL_CAR_RADIUS_WIDTHS = (0.75, 1.5)
 
 
-def _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline, radius_below=None):
+def _copy_radii(slices, radius_below=None) -> list[float]:
+    """Turning radii (m) of the car paths to copy (:data:`VIRTUAL_CAR_RADIUS_WIDTHS`), below ``radius_below``."""
+    width = slices.vehicle.width_m
+    radii = dict.fromkeys(max(0.5, w * width) for w in VIRTUAL_CAR_RADIUS_WIDTHS)
+    return [r for r in radii if radius_below is None or r < radius_below]
+
+
+def _fewer_direction_changes(slices, dp, s_loc, g_loc, limits, check, deadline, radius_below=None,
+                             local_first=False):
     """A differential path with direction changes may do better by copying a car's path
     (:func:`floorfit.motion.drivable_car.car_copy`, for the turning radii of
-    :data:`VIRTUAL_CAR_RADIUS_WIDTHS` in turn until a copy has none); a copy is kept when it has
-    fewer direction changes, or as many and a shorter length."""
+    :data:`VIRTUAL_CAR_RADIUS_WIDTHS` in turn until a copy has none). With ``local_first`` and start and
+    goal farther apart than :data:`LOCAL_MIN_SPANS` windows, first only around its changes of direction
+    (:func:`_local_repair`); the whole route is copied only when changes remain. A copy is kept when it
+    has fewer direction changes, or as many and a shorter length."""
     from floorfit.motion.drivable import finish_plan
 
-    width = slices.vehicle.width_m
-    for radius in dict.fromkeys(max(0.5, w * width) for w in VIRTUAL_CAR_RADIUS_WIDTHS):
+    radii = _copy_radii(slices, radius_below)
+    apart = math.hypot(g_loc[0] - s_loc[0], g_loc[1] - s_loc[1])
+    if local_first and radii and apart > LOCAL_MIN_SPANS * _window_span(slices, radii):
+        local = _local_repair(slices, dp, radii, limits, check, deadline)
+        if local is not None and local.direction_changes < dp.direction_changes:
+            dp = finish_plan(local, check, limits, s_loc, g_loc)
+    for radius in radii:
         if dp.direction_changes == 0:
             break
-        if radius_below is not None and radius >= radius_below:
-            continue
         alt = car_copy(slices, radius, s_loc, g_loc, limits=limits, check=check, deadline=deadline)
         if alt is not None and (alt.direction_changes, alt.length_m) < (dp.direction_changes, dp.length_m):
             dp = finish_plan(alt, check, limits, s_loc, g_loc)
     return dp
+
+
+#: Local repair: the car copy runs over the route from this many vehicle sizes (the larger of the
+#: vehicle's length and the copy's largest turning radius) before a cluster of direction changes to as
+#: many after it (changes closer than two such spans form one cluster) ...
+LOCAL_WINDOW_SIZES = 3.0
+#: ... and over windows twice, four times ... as wide where that gives no fewer changes (this many widenings).
+LOCAL_WIDENINGS = 2
+#: The car search of a local copy stays within this many window spans of the route's piece.
+LOCAL_BOX_SPANS = 1.0
+#: Only routes whose start and goal lie farther apart than this many window spans are repaired locally
+#: (a shorter route is copied whole, which costs little there).
+LOCAL_MIN_SPANS = 10.0
+
+
+def _window_span(slices, radii) -> float:
+    """Distance (m) along the route a local copy reaches before and after the changes of direction."""
+    return LOCAL_WINDOW_SIZES * max(slices.vehicle.length_m, max(radii))
+
+
+def _cusp_distances(segs) -> list[float]:
+    """Distance (m) along the path, travelled by the reference point, of each change of direction."""
+    out, done, last = [], 0.0, None
+    for seg in segs:
+        if seg.kind != "rotate" and seg.length_m > 0:
+            if last is not None and seg.direction != last:
+                out.append(done)
+            last = seg.direction
+        done += seg.length_m
+    return out
+
+
+def _clusters(cusps: list[float], span: float) -> list[tuple[float, float]]:
+    """(first, last) distances of the runs of ``cusps`` less than two ``span`` apart (m)."""
+    out: list[list[float]] = []
+    for c in cusps:
+        if out and c - out[-1][1] < 2.0 * span:
+            out[-1][1] = c
+        else:
+            out.append([c, c])
+    return [(a, b) for a, b in out]
+
+
+def _split_at(segs, at_m: float):
+    """``segs`` with the segment that passes distance ``at_m`` (m along the path) cut there when it is
+    a straight, and the index of the boundary at (or, inside another kind, just after) that distance."""
+    from floorfit.motion.segments import straight
+
+    done = 0.0
+    for i, seg in enumerate(segs):
+        if seg.kind == "rotate" or seg.length_m <= 0:
+            continue
+        if at_m <= done + 1e-9:
+            return list(segs), i
+        if at_m < done + seg.length_m - 1e-9:
+            if seg.kind != "straight":
+                return list(segs), i + 1
+            head = straight(seg.start, seg.sign * (at_m - done))
+            tail = straight(head.end, seg.sign * (seg.length_m - (at_m - done)))
+            return list(segs[:i]) + [head, tail] + list(segs[i + 1:]), i + 1
+        done += seg.length_m
+    return list(segs), len(segs)
+
+
+def _chain(segs, pose) -> list:
+    """The motions of ``segs`` driven one after another from ``pose``."""
+    from floorfit.motion.subdivision import redo
+
+    out = []
+    for seg in segs:
+        out.append(redo(seg, pose))
+        pose = out[-1].end
+    return out
+
+
+def _deg(pose) -> tuple[float, float, float]:
+    return (float(pose[0]), float(pose[1]), float(wrap_deg(math.degrees(pose[2]))))
+
+
+def _window_box(piece, span: float, domain_bounds) -> tuple[float, float, float, float]:
+    """Box (local m) around the poses of ``piece`` grown by ``LOCAL_BOX_SPANS`` × ``span``, within the domain."""
+    pts = np.array([piece[0].start[:2]] + [sg.end[:2] for sg in piece])
+    grow = LOCAL_BOX_SPANS * span
+    x0, y0, x1, y1 = domain_bounds
+    return (max(x0, float(pts[:, 0].min()) - grow), max(y0, float(pts[:, 1].min()) - grow),
+            min(x1, float(pts[:, 0].max()) + grow), min(y1, float(pts[:, 1].max()) + grow))
+
+
+def _repair_window(slices, segs, a_m: float, b_m: float, span: float, radii, limits, check, deadline):
+    """``segs`` with its piece between distances ``a_m`` and ``b_m`` (m) replaced by the best car copy
+    (fewest direction changes of the joined path, then shortest) when that has fewer direction changes
+    and the joined path passes the exact check; else None (also for a window of the whole route)."""
+    from floorfit.motion.segments import direction_changes, merge_segments, total_length
+
+    if a_m <= 0.0 and b_m >= total_length(segs) - 1e-9:
+        return None             # the whole route: copied as such when changes remain
+    cut, ia = _split_at(segs, a_m)
+    cut, ib = _split_at(cut, b_m)
+    if ib <= ia:
+        return None
+    head, piece, rest = cut[:ia], cut[ia:ib], cut[ib:]
+    box = _window_box(piece, span, slices.domain.bounds)
+    best, key = None, (direction_changes(segs), total_length(segs))
+    for radius in radii:
+        alt = car_copy(slices, radius, _deg(piece[0].start), _deg(piece[-1].end), limits=limits, check=check,
+                       deadline=deadline, box=box)
+        if alt is None or not alt.segments:
+            continue
+        new = _chain(alt.segments, piece[0].start)
+        joined = merge_segments(head + new + _chain(rest, new[-1].end))
+        k = (direction_changes(joined), total_length(joined))
+        if k < key and check.free(joined):
+            best, key = joined, k
+        if key[0] == 0:
+            break
+    return best
+
+
+def _local_repair(slices, dp, radii, limits, check, deadline):
+    """``dp`` with car copies (:func:`floorfit.motion.drivable_car.car_copy`, searches kept near the route)
+    over windows of the route around each cluster of its direction changes (:data:`LOCAL_WINDOW_SIZES`,
+    widened up to :data:`LOCAL_WIDENINGS` times where a copy does not help), shortened; the joined path is
+    checked exactly. None when no window got fewer direction changes. ``samples`` are not filled."""
+    from floorfit.motion.drivable import FOUND, DrivePlan
+    from floorfit.motion.segments import direction_changes, total_length
+    from floorfit.motion.subdivision import shortcut_differential
+
+    base = _window_span(slices, radii)
+    segs = list(dp.segments)
+    improved = False
+    for wide in range(LOCAL_WIDENINGS + 1):
+        span = base * 2 ** wide
+        for first, last in reversed(_clusters(_cusp_distances(segs), span)):   # the later ones first: the
+            total = total_length(segs)                                        # earlier distances stay
+            new = _repair_window(slices, segs, max(0.0, first - span), min(total, last + span), span, radii,
+                                 limits, check, deadline)
+            if new is not None:
+                segs, improved = new, True
+        if direction_changes(segs) == 0:
+            break
+    if not improved:
+        return None
+    segs = shortcut_differential(segs, free=check.free, reverse=True, deadline=deadline)
+    if not check.free(segs):
+        return None
+    return DrivePlan(FOUND, segments=segs, reason="rotate-and-drive along the holonomic route, with turns in "
+                     "place and straights along a car path where it changed direction (fewer direction changes)")
 
 
 #: What may help when a drive search stopped at a limit (by the DriveLimits field that stopped it).
@@ -397,7 +561,8 @@ def _drive(result: RouteResult, plan: Plan, vehicle: Vehicle, slices: SliceSet, 
         dp = plan_car(slices, vehicle, s_loc, g_loc, limits=limits, differential=straights_and_turns, exact=exact)
         radius = vehicle.min_turn_radius_m
     else:
-        dp = differential_plan(slices, G, holonomic_local, s_loc, g_loc, reverse=vehicle.reverse, limits=limits)
+        dp = differential_plan(slices, G, holonomic_local, s_loc, g_loc, reverse=vehicle.reverse, limits=limits,
+                               local_first=True)
         radius = None
     result.search = {"mode": vehicle.mode, "reverse": vehicle.reverse, "min_turn_radius_m": radius,
                      "status": dp.status, "reason": dp.reason, "expansions": dp.expansions,

@@ -30,6 +30,7 @@ towards "not found", never towards "fits".
 
 from __future__ import annotations
 
+import bisect
 import math
 
 import numpy as np
@@ -89,13 +90,18 @@ class SliceMotionCheck:
         Largest spacing of the samples that will be checked (m, degrees).
     extra_margin_m : float
         Added to the position margin ``step_m / 2`` (the chord error of the output path).
+    clip_box : (xmin, ymin, xmax, ymax) or None
+        Only the free space inside this box (local m) is used: positions farther than the
+        erosion inside it answer as without it, positions nearer its edges or outside are
+        refused (sound; for a search kept well inside the box).
     """
 
     #: Slices per stacked block.
     BLOCK = 48
     _QUAD_SEGS = 8
 
-    def __init__(self, slices: SliceSet, step_m: float, step_deg: float, extra_margin_m: float = 0.0):
+    def __init__(self, slices: SliceSet, step_m: float, step_deg: float, extra_margin_m: float = 0.0,
+                 clip_box=None):
         if slices.bound != "sound":
             raise ValueError("drive checks need sound slices")
         self.slices = slices
@@ -109,6 +115,7 @@ class SliceMotionCheck:
         x0, _, x1, _ = slices.domain.bounds
         self._shift = (x1 - x0) + 10.0
         self._blocks: dict[int, tuple | None] = {}
+        self._clip = None if clip_box is None else tuple(float(v) for v in clip_box)
         self.poses_checked = 0
 
     # --- cells -------------------------------------------------------------------------
@@ -123,7 +130,7 @@ class SliceMotionCheck:
         if b not in self._blocks:
             parts = []
             for k in range(b * self.BLOCK, min((b + 1) * self.BLOCK, len(self.slices))):
-                comps = self.slices.components[k]
+                comps = self._clipped(k)
                 if not len(comps):
                     continue
                 eroded = shapely.buffer(comps, -self._erode, quad_segs=self._QUAD_SEGS)
@@ -138,6 +145,15 @@ class SliceMotionCheck:
             else:
                 self._blocks[b] = None
         return self._blocks[b]
+
+    def _clipped(self, k: int) -> np.ndarray:
+        """Free-space components of slice ``k`` (inside the clip box when there is one)."""
+        comps = np.asarray(self.slices.components[k])
+        if self._clip is None or not len(comps):
+            return comps
+        comps = comps[shapely.intersects(comps, shapely.box(*self._clip))]
+        cut = shapely.clip_by_rect(comps, *self._clip)
+        return cut[~shapely.is_empty(cut)]
 
     def free_in_windows(self, poses_deg, lo_deg, hi_deg) -> np.ndarray:
         """True where each pose's position lies at least ``margin_m`` inside the free space of
@@ -240,6 +256,8 @@ class ExactSliceCheck:
         cells = slices.cells
         self._starts = cells.headings - cells.below
         self._prepared: set[int] = set()
+        self._points: dict[tuple[float, float], np.ndarray] = {}
+        self._start_list = self._starts.tolist()
         self.checks = 0
         #: structures derived from these slices that the searches sharing this check may share too
         #: (for example the sampled check and 2-D heuristic grid of a car of one turning radius)
@@ -250,6 +268,12 @@ class ExactSliceCheck:
         y = np.mod(np.asarray(h_deg, dtype=float) - s0, 360.0) + s0
         idx = np.searchsorted(self._starts, y, side="right") - 1
         return np.clip(idx, 0, len(self._starts) - 1)
+
+    def _cell_of_one(self, h_deg: float) -> int:
+        """:meth:`_cell_of` of one heading (degrees), without numpy's per-call cost (the same arithmetic)."""
+        s0 = self._start_list[0]
+        k = bisect.bisect_right(self._start_list, (float(h_deg) - s0) % 360.0 + s0) - 1
+        return min(max(k, 0), len(self._start_list) - 1)
 
     def _comps(self, k: int):
         comps = self.slices.components[k]
@@ -271,23 +295,36 @@ class ExactSliceCheck:
             ok[i_g[hit]] = True
         return bool(ok.all())
 
+    #: Positions whose per-cell answers :meth:`rotation_free` keeps (then it starts afresh).
+    POINT_MEMORY = 50_000
+
+    def _point_in_cell(self, x: float, y: float, k: int) -> bool:
+        """Position (x, y) in the free space of cell ``k`` (point in polygon, kept per position)."""
+        row = self._points.get((x, y))
+        if row is None:
+            if len(self._points) >= self.POINT_MEMORY:
+                self._points.clear()
+            row = self._points[(x, y)] = np.full(len(self._starts), -1, dtype=np.int8)
+        if row[k] < 0:
+            comps = self._comps(k)
+            inside = False
+            if len(comps):
+                idx = self.slices.tree(k).query(shapely.points(x, y))
+                inside = bool(len(idx)) and bool(shapely.intersects_xy(comps[idx], x, y).any())
+            row[k] = inside
+        return bool(row[k])
+
     def rotation_free(self, x: float, y: float, h0_deg: float, dh_deg: float) -> bool:
+        """The base turning in place at (x, y) m from ``h0_deg`` by ``dh_deg`` degrees stays in the free
+        space of every cell it sweeps."""
         n = len(self._starts)
         if abs(dh_deg) >= 360.0 - 1e-9:
-            ks = np.arange(n)
+            ks = range(n)
         else:
             lo, hi = (h0_deg, h0_deg + dh_deg) if dh_deg >= 0 else (h0_deg + dh_deg, h0_deg)
-            ia, ib = int(self._cell_of(lo)), int(self._cell_of(hi))
-            ks = np.mod(ia + np.arange(int(np.mod(ib - ia, n)) + 1), n)
-        pt = shapely.points(x, y)
-        for k in ks:
-            comps = self._comps(int(k))
-            if not len(comps):
-                return False
-            idx = self.slices.tree(int(k)).query(pt)
-            if not len(idx) or not shapely.intersects_xy(comps[idx], x, y).any():
-                return False
-        return True
+            ia, ib = self._cell_of_one(lo), self._cell_of_one(hi)
+            ks = [(ia + j) % n for j in range((ib - ia) % n + 1)]
+        return all(self._point_in_cell(x, y, k) for k in ks)
 
     def _arc_pieces(self, seg: Segment) -> list[tuple[int, object]]:
         """(cell, polygon) pieces covering an arc and the chords between its output samples."""
@@ -341,7 +378,7 @@ class ExactSliceCheck:
         if seg.kind == "rotate":
             return self.rotation_free(x, y, h_deg, seg.angle_deg)
         if seg.kind == "straight":
-            k = int(self._cell_of(h_deg))
+            k = self._cell_of_one(h_deg)
             if seg.length_m <= 1e-12:
                 return self.rotation_free(x, y, h_deg, 0.0)
             return self._covered(k, shapely.linestrings([seg.start[:2], seg.end[:2]]))

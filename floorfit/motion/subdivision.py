@@ -34,9 +34,10 @@ fewer changes of direction). Every piece is checked with the caller's
 
 from __future__ import annotations
 
+import itertools
 import math
 import time
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -68,7 +69,7 @@ __all__ = [
 
 _SAME = 1e-9
 Free = Callable[[list[Segment]], bool]
-Steer = Callable[[tuple, tuple], list[list[Segment]]]
+Steer = Callable[[tuple, tuple], Iterable[list[Segment]]]
 FirstFree = Callable[[list[list[Segment]]], "int | None"]
 MaybeFree = Callable[[np.ndarray, np.ndarray, int], np.ndarray]
 #: Sample spacing (m, degrees) of the candidates' pre-test in :func:`shortcut_car`.
@@ -119,11 +120,11 @@ def _rtr(a, b, reverse: bool) -> list[tuple[float, list[Segment]]]:
     return out
 
 
-def _two_drives(a, b, reverse: bool, tilts: Sequence[float]) -> list[list[Segment]]:
-    """Manoeuvres for a translation at a's heading: drive at h+β1, then at h+β2 (β from ``tilts``)."""
+def _two_drives(a, b, reverse: bool, tilts: Sequence[float]) -> Iterator[list[Segment]]:
+    """Manoeuvres for a translation at a's heading: drive at h+β1, then at h+β2 (β from ``tilts``),
+    made one at a time as they are asked for."""
     h = a[2]
     dx, dy = b[0] - a[0], b[1] - a[1]
-    out = []
     for beta in tilts:
         for b1, b2 in ((beta, -beta), (-beta, beta), (beta, 0.0), (0.0, beta), (-beta, 0.0), (0.0, -beta)):
             u1 = (math.cos(h + b1), math.sin(h + b1))
@@ -140,33 +141,32 @@ def _two_drives(a, b, reverse: bool, tilts: Sequence[float]) -> list[list[Segmen
             segs.append(rotate(segs[-1].end, b2 - b1))
             segs.append(straight(segs[-1].end, c2))
             segs.append(rotate(segs[-1].end, -b2))
-            out.append(segs)
-    return out
+            yield segs
 
 
 def differential_steer(reverse: bool, tilts: Sequence[float]) -> Steer:
-    """Steering method of a differential base (see the module docstring); ``tilts`` in radians."""
+    """Steering method of a differential base (see the module docstring); ``tilts`` in radians. The
+    candidates come as an iterator, the two-drive manoeuvres made only when the earlier ones failed."""
     tilts = sorted({float(t) for t in tilts if t > 0}, reverse=True)
 
-    def steer(a, b) -> list[list[Segment]]:
+    def steer(a, b) -> Iterator[list[Segment]]:
         dx, dy = b[0] - a[0], b[1] - a[1]
         dist = math.hypot(dx, dy)
         dh = b[2] - a[2]
         if dist <= _SAME:
             other = dh - math.copysign(2 * math.pi, dh) if dh else 0.0
-            return [[rotate(a, dh)], [rotate(a, other)]] if dh else [[rotate(a, 0.0)]]
+            yield from ([[rotate(a, dh)], [rotate(a, other)]] if dh else [[rotate(a, 0.0)]])
+            return
         c, s = math.cos(a[2]), math.sin(a[2])
         along, side = c * dx + s * dy, -s * dx + c * dy
-        cands: list[list[Segment]] = []
         if abs(dh) <= _SAME and abs(side) <= _SAME * (1 + abs(along)) and (along > 0 or reverse):
-            cands.append([straight(a, along)])
-        cands += [segs for _, segs in sorted(_rtr(a, b, reverse), key=lambda item: item[0])]
+            yield [straight(a, along)]
+        yield from (segs for _, segs in sorted(_rtr(a, b, reverse), key=lambda item: item[0]))
         if abs(dh) <= _SAME:
-            cands += _two_drives(a, b, reverse, tilts)
+            yield from _two_drives(a, b, reverse, tilts)
         else:   # a turn and a translation at once: turn first, or translate first
             spin = rotate(a, dh)
-            cands += [[spin] + rest for rest in _two_drives(spin.end, (b[0], b[1], spin.end[2]), reverse, tilts)]
-        return cands
+            yield from ([spin] + rest for rest in _two_drives(spin.end, (b[0], b[1], spin.end[2]), reverse, tilts))
 
     return steer
 
@@ -209,22 +209,30 @@ def subdivide(waypoints, *, steer: Steer, free: Free, max_depth: int = 16, max_c
     pts[1:, 2] = pts[0, 2] + np.cumsum(wrap_angle(np.diff(pts[:, 2])))
     state = {"checks": 0, "depth": 0}
 
-    def first_of(cands) -> list[Segment] | None:
+    def first_of(cands: Iterator[list[Segment]]) -> list[Segment] | None:
         if deadline is not None and time.perf_counter() > deadline:
             raise _Limit("time_limit_s")
-        cands = cands[:max(0, max_checks - state["checks"])]
+        room = max(0, max_checks - state["checks"])
         if first_free is not None:
-            i = first_free(cands) if cands else None
-        else:
-            i = next((k for k, c in enumerate(cands) if free(c)), None)
-        state["checks"] += len(cands) if i is None else i + 1
-        if i is None and state["checks"] >= max_checks:
+            listed = list(itertools.islice(cands, room))
+            i = first_free(listed) if listed else None
+            tried = len(listed) if i is None else i + 1
+            found = None if i is None else listed[i]
+        else:       # made and checked one at a time: the same order, the same count
+            tried, found = 0, None
+            for c in itertools.islice(cands, room):
+                tried += 1
+                if free(c):
+                    found = c
+                    break
+        state["checks"] += tried
+        if found is None and state["checks"] >= max_checks:
             raise _Limit("max_checks")
-        return None if i is None else cands[i]
+        return found
 
     def follow(a, b, depth) -> list[Segment]:
-        cands = [c for c in steer(a, b)
-                 if math.hypot(c[-1].end[0] - b[0], c[-1].end[1] - b[1]) <= 1e-6 and abs(c[-1].end[2] - b[2]) <= 1e-6]
+        cands = (c for c in steer(a, b)
+                 if math.hypot(c[-1].end[0] - b[0], c[-1].end[1] - b[1]) <= 1e-6 and abs(c[-1].end[2] - b[2]) <= 1e-6)
         found = first_of(cands)
         if found is not None:
             return found
