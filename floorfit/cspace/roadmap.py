@@ -11,6 +11,8 @@ bound).
 from __future__ import annotations
 
 import math
+import weakref
+from collections import OrderedDict
 
 import networkx as nx
 import numpy as np
@@ -143,10 +145,58 @@ def _overlapping(probes: _Probes, k: int, k2: int) -> tuple[np.ndarray, np.ndarr
     return ia[proved], ib[proved]
 
 
+#: Rotation zones kept for the next query (:func:`rotation_zone`): at most this many coordinates in all.
+ZONES_KEPT_COORDINATES = 2_000_000
+
+
+class _KeptZones:
+    """Recent rotation zones by (id of the slice set, u, v, window), oldest first, with a weak
+    reference to their slice set (an id may be reused once a slice set is gone)."""
+
+    def __init__(self):
+        self.zones: OrderedDict = OrderedDict()
+        self.coordinates = 0
+
+    def get(self, slices: SliceSet, key):
+        kept = self.zones.get(key)
+        if kept is None or kept[0]() is not slices:
+            return None
+        self.zones.move_to_end(key)
+        return kept[1]
+
+    def put(self, slices: SliceSet, key, zone) -> None:
+        n = int(shapely.get_num_coordinates(zone))
+        old = self.zones.pop(key, None)
+        self.coordinates += n - (old[2] if old is not None else 0)
+        self.zones[key] = (weakref.ref(slices), zone, n)
+        while len(self.zones) > 1 and self.coordinates > ZONES_KEPT_COORDINATES:
+            self.coordinates -= self.zones.popitem(last=False)[1][2]
+
+    def clear(self) -> None:
+        self.zones.clear()
+        self.coordinates = 0
+
+
+_ZONES = _KeptZones()
+
+
 def rotation_zone(slices: SliceSet, u, v, window: tuple[float, float, float, float] | None = None):
     """The overlap of roadmap nodes ``u`` and ``v`` (local frame), where the vehicle can rotate
     between their headings; with ``window`` (xmin, ymin, xmax, ymax, metres) only its part inside
-    that rectangle (the components are cut to it first, so a large free space costs little)."""
+    that rectangle (the components are cut to it first, so a large free space costs little).
+
+    The zones of recent queries are kept (at most :data:`ZONES_KEPT_COORDINATES` coordinates): the
+    routes between many station pairs on one slice set ask for the same zones again."""
+    key = (id(slices), u, v, window)
+    zone = _ZONES.get(slices, key)
+    if zone is None:
+        zone = _overlap(slices, u, v, window)
+        _ZONES.put(slices, key, zone)
+    return zone
+
+
+def _overlap(slices: SliceSet, u, v, window):
+    """:func:`rotation_zone` made anew."""
     a = slices.components[u[0]][u[1]]
     b = slices.components[v[0]][v[1]]
     if window is not None:
