@@ -203,3 +203,12 @@ def test_a_part_drawn_apart_returns_its_bytes_and_raises_its_error_here():
     pending = apart.start(bytes, 4, workers=2)
     pending.cancel()                                                 # stopped: drawn here when asked
     assert not pending.apart and pending.result() == bytes(4)
+
+
+def test_a_pool_worker_draws_in_one_process_unless_asked(monkeypatch):
+    monkeypatch.setattr(apart.multiprocessing, "parent_process", lambda: object())
+    pending = apart.start(bytes, 2)
+    assert not pending.apart and pending.result() == bytes(2)
+    monkeypatch.setattr(apart, "usable_cores", lambda: 1)
+    monkeypatch.setattr(apart.multiprocessing, "parent_process", lambda: None)
+    assert not apart.start(bytes, 1).apart                          # one core: drawn here

@@ -30,13 +30,16 @@ def usable_cores() -> int:
 
 def _may_fork(workers: int | None) -> bool:
     """True when a forked child may draw a part: Linux (fork is safe with matplotlib there), more
-    than one worker asked for or (``None``) more than one usable core, and not a daemonic process
-    (those may not have children)."""
+    than one worker asked for or (``None``) more than one usable core and a process that is not
+    itself a worker of a process pool (a batch's pool already shares out the cores; daemonic
+    processes may not have children)."""
     if not sys.platform.startswith("linux") or "fork" not in multiprocessing.get_all_start_methods():
         return False
     if multiprocessing.current_process().daemon:
         return False
-    return (usable_cores() if workers is None else int(workers)) >= 2
+    if workers is None:
+        return multiprocessing.parent_process() is None and usable_cores() >= 2
+    return int(workers) >= 2
 
 
 def _child(conn: Any, fn: Callable[..., bytes], args: tuple, kwargs: dict) -> None:
