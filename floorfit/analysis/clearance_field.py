@@ -21,6 +21,7 @@ import numpy as np
 import shapely
 from networkx.utils import UnionFind
 from scipy import ndimage
+from scipy.spatial import cKDTree
 
 __all__ = ["ClearanceField", "clearance_field", "JoinEvent", "join_events", "choose_cell_size"]
 
@@ -134,6 +135,10 @@ def join_events(field: ClearanceField, seeds: dict[int, np.ndarray], floor: floa
 
     ``seeds[r]`` is an (M, 2) array of (iy, ix) cells of region r. Regions whose seeds
     only connect below ``floor`` are never joined (not connected for that clearance).
+
+    The levels where a join happens are found by galloping and bisection over the falling
+    thresholds (:func:`_next_join_level`) rather than by labelling every level: whether some
+    regions join only grows as the threshold falls, so the same levels are found.
     """
     dist = field.dist
     regions = [r for r, s in seeds.items() if len(s)]
@@ -143,21 +148,18 @@ def join_events(field: ClearanceField, seeds: dict[int, np.ndarray], floor: floa
     top = max(float(np.max(v)) for v in seed_d.values())
     uf = UnionFind(regions)
     find = uf.__getitem__
+    levels = _levels(min(top, float(np.max(dist[np.isfinite(dist)])) if np.isfinite(dist).any() else top),
+                     floor, field.cell)
+
+    def groups_at(k):
+        return _level_groups(dist, levels[k], regions, seeds, seed_d)
 
     events: list[JoinEvent] = []
-    prev_lab = None
-    for t in _levels(min(top, float(np.max(dist[np.isfinite(dist)])) if np.isfinite(dist).any() else top),
-                     floor, field.cell):
+    done, done_lab = -1, None           # the last level with joins, and its labels
+    while (found := _next_join_level(groups_at, len(levels), done, done_lab, find)) is not None:
+        done, (lab, groups), prev_lab = found
+        t = levels[done]
         mask = dist >= t
-        lab, _ = ndimage.label(mask, structure=_EIGHT)
-        groups: dict[int, list[int]] = {}
-        for r in regions:
-            s = seeds[r]
-            ok = seed_d[r] >= t
-            if not ok.any():
-                continue
-            for L in np.unique(lab[s[ok, 0], s[ok, 1]]):
-                groups.setdefault(int(L), []).append(r)
         for L, rs in groups.items():
             roots = sorted({find(r) for r in rs})
             if len(roots) < 2:
@@ -168,48 +170,156 @@ def join_events(field: ClearanceField, seeds: dict[int, np.ndarray], floor: floa
                                              regions)
                 events.append(JoinEvent(float(t), roots[0], other, iy, ix, overlap))
                 uf.union(roots[0], other)
-        prev_lab = lab
+        done_lab = lab
         if len({find(r) for r in regions}) == 1:
             break
     return events
 
 
+def _level_groups(dist, t, regions, seeds, seed_d):
+    """Labels of the floor at clearance ``t`` or more, and the regions whose seeds (those at ``t`` or
+    more) each label holds: ``(lab, {label: [region, ...]})``."""
+    lab, _ = ndimage.label(dist >= t, structure=_EIGHT)
+    groups: dict[int, list[int]] = {}
+    for r in regions:
+        s = seeds[r]
+        ok = seed_d[r] >= t
+        if not ok.any():
+            continue
+        for L in np.unique(lab[s[ok, 0], s[ok, 1]]):
+            groups.setdefault(int(L), []).append(r)
+    return lab, groups
+
+
+def _joins(groups, find) -> bool:
+    """True when some label holds regions that are not yet joined."""
+    return any(len({find(r) for r in rs}) > 1 for rs in groups.values())
+
+
+def _next_join_level(groups_at, n: int, lo: int, lo_lab, find):
+    """The first level after ``lo`` (of ``n``) where regions join: ``(k, groups_at(k), labels at k - 1)``
+    (None for the labels when k is the first level), or None when none is left.
+
+    ``lo_lab``: the labels at level ``lo`` (none joins there any more). Levels are probed at
+    lo + 1, + 2, + 4, ... until one joins, then bisected.
+    """
+    step = 1
+    while True:
+        k = min(lo + step, n - 1)
+        if k <= lo:
+            return None
+        at = groups_at(k)
+        if _joins(at[1], find):
+            hi, hi_at = k, at
+            break
+        lo, lo_lab = k, at[0]
+        step *= 2
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        at = groups_at(mid)
+        if _joins(at[1], find):
+            hi, hi_at = mid, at
+        else:
+            lo, lo_lab = mid, at[0]
+    return hi, hi_at, (lo_lab if lo >= 0 else None)
+
+
 def _join_cell(lab, prev_lab, L, mask, dist, t, seeds, ra, rb, find, regions):
     """The cell of component L (at this level) nearest to both the ra-side and the rb-side of the previous level."""
     comp = lab == L
-    side = {}
-    overlap = prev_lab is None
-    if not overlap:
-        lab_sets = {}
-        for root in (ra, rb):
-            members = [r for r in regions if find(r) == root]
-            labels = set()
-            for r in members:
-                s = seeds[r]
-                v = prev_lab[s[:, 0], s[:, 1]]
-                labels.update(int(x) for x in v[v > 0])
-            lab_sets[root] = labels
-            side[root] = np.isin(prev_lab, list(labels)) if labels else np.zeros_like(comp)
-        overlap = bool(lab_sets[ra] & lab_sets[rb]) or not lab_sets[ra] or not lab_sets[rb]
+    # the distances are measured in the bounding box of the component only, for speed
+    ys, xs = np.flatnonzero(comp.any(axis=1)), np.flatnonzero(comp.any(axis=0))
+    win = (slice(ys[0], ys[-1] + 1), slice(xs[0], xs[-1] + 1))
+    lab_sets = None if prev_lab is None else {root: _side_labels(prev_lab, seeds, regions, find, root)
+                                              for root in (ra, rb)}
+    overlap = lab_sets is None or bool(lab_sets[ra] & lab_sets[rb]) or not lab_sets[ra] or not lab_sets[rb]
     if overlap:
         # the sides were never apart on the raster (their floor overlaps): use their seed cells
-        for root in (ra, rb):
-            m = np.zeros_like(comp)
-            for r in regions:
-                if find(r) == root:
-                    m[seeds[r][:, 0], seeds[r][:, 1]] = True
-            side[root] = m
-    # restrict the distance computation to the bounding box of the component, for speed
-    ys, xs = np.nonzero(comp)
-    y0, y1, x0, x1 = ys.min(), ys.max() + 1, xs.min(), xs.max() + 1
-    new = comp[y0:y1, x0:x1] if overlap else (comp & ~(prev_lab > 0))[y0:y1, x0:x1]
-    da = ndimage.distance_transform_edt(~side[ra][y0:y1, x0:x1]) if side[ra].any() else None
-    db = ndimage.distance_transform_edt(~side[rb][y0:y1, x0:x1]) if side[rb].any() else None
-    if da is None or db is None or not new.any():
+        masks = [_seed_mask(comp.shape, seeds, regions, find, root) for root in (ra, rb)]
+        present = all(m.any() for m in masks)
+        sides = [m[win] for m in masks]
+        new = comp[win]
+    else:
+        # the previous level's components holding each side's seeds (present: their labels are there)
+        present = True
+        sides = [np.isin(prev_lab[win], list(lab_sets[root])) for root in (ra, rb)]
+        new = comp[win] & ~(prev_lab[win] > 0)
+    if not (present and new.any()):
         iy, ix = np.unravel_index(np.argmax(np.where(comp, -dist, -np.inf)), dist.shape)
         return int(iy), int(ix), overlap
+    iy, ix = _midway_cell(sides[0], sides[1], new)
+    return int(iy + ys[0]), int(ix + xs[0]), overlap
+
+
+def _side_labels(prev_lab, seeds, regions, find, root) -> set:
+    """Labels of the previous level's components that hold seed cells of the regions joined under ``root``."""
+    labels = set()
+    for r in regions:
+        if find(r) == root:
+            s = seeds[r]
+            v = prev_lab[s[:, 0], s[:, 1]]
+            labels.update(int(x) for x in v[v > 0])
+    return labels
+
+
+def _seed_mask(shape, seeds, regions, find, root) -> np.ndarray:
+    """Mask of the seed cells of the regions joined under ``root``."""
+    m = np.zeros(shape, dtype=bool)
+    for r in regions:
+        if find(r) == root:
+            m[seeds[r][:, 0], seeds[r][:, 1]] = True
+    return m
+
+
+def _midway_cell(side_a: np.ndarray, side_b: np.ndarray, new: np.ndarray) -> tuple[int, int]:
+    """(iy, ix) in the window of the ``new`` cell on the shortest way between the two sides (masks
+    of the same window), midway between them; distances in cells to the nearest side cell of the window.
+
+    Among the new cells whose two distances add up to within 1.5 cells of the least sum, the one
+    whose distances differ least; ties go to the first in row-major order.
+    """
+    cells = np.nonzero(new)
+    da = _distances_at(side_a, cells)
+    db = _distances_at(side_b, cells)
     total = da + db
-    # among the cells on the shortest way between the sides, the one midway between them
-    score = np.where(new & (total <= np.min(np.where(new, total, np.inf)) + 1.5), np.abs(da - db), np.inf)
-    iy, ix = np.unravel_index(np.argmin(score), score.shape)
-    return int(iy + y0), int(ix + x0), overlap
+    score = np.where(total <= np.min(total) + 1.5, np.abs(da - db), np.inf)
+    j = int(np.argmin(score))
+    return int(cells[0][j]), int(cells[1][j])
+
+
+#: :func:`_distances_at` measures with a k-d tree of the side's edge cells when the cells asked
+#: for are fewer than this fraction of the window, and with a distance transform of the window otherwise.
+TREE_MAX_FRACTION = 0.125
+
+
+def _distances_at(side: np.ndarray, cells: tuple[np.ndarray, np.ndarray]) -> np.ndarray:
+    """Euclidean distance (cells) from each of ``cells`` ((iy, ix) arrays) to the nearest ``True``
+    cell of ``side``: ``ndimage.distance_transform_edt(~side)`` at those cells (an exact transform).
+
+    For a few cells, the same values from a k-d tree of the side's edge cells (those with a
+    4-neighbour in the window outside the side: the nearest side cell of a cell outside the side is
+    always one); both are the square root of the same whole squared distance. A side with no cell
+    in the window is measured by the transform, whatever it gives.
+    """
+    if len(cells[0]) >= TREE_MAX_FRACTION * side.size or not side.any():
+        return ndimage.distance_transform_edt(~side)[cells]
+    d = np.zeros(len(cells[0]))
+    edge = _edge_cells(side)
+    out = ~side[cells]          # cells in the side are at distance 0
+    if len(edge) and out.any():
+        d[out] = cKDTree(edge).query(np.c_[cells[0][out], cells[1][out]])[0]
+    return d
+
+
+def _edge_cells(side: np.ndarray) -> np.ndarray:
+    """(iy, ix) rows of the ``True`` cells of ``side`` with a 4-neighbour in the array that is ``False``
+    (found in the side's bounding box grown by one cell)."""
+    ys, xs = np.flatnonzero(side.any(axis=1)), np.flatnonzero(side.any(axis=0))
+    y0, x0 = max(ys[0] - 1, 0), max(xs[0] - 1, 0)
+    box = side[y0:ys[-1] + 2, x0:xs[-1] + 2]
+    inner = box.copy()
+    inner[1:, :] &= box[:-1, :]
+    inner[:-1, :] &= box[1:, :]
+    inner[:, 1:] &= box[:, :-1]
+    inner[:, :-1] &= box[:, 1:]
+    return np.argwhere(box & ~inner) + (y0, x0)

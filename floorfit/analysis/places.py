@@ -62,15 +62,20 @@ def _seeds(ctx: CheckContext, slices: SliceSet, comps, st_regions, field, min_ar
 
 
 def _merge_reversed(slices: SliceSet, comps, seeds, min_area) -> UnionFind:
-    """Union regions that cover the same floor at opposite mean headings."""
+    """Union regions that cover the same floor at opposite mean headings (with at most 60 regions)."""
     group = UnionFind(seeds)
     ids = sorted(seeds)
+    if len(ids) > 60:
+        return group
     direction = {r: _mean_heading(slices, comps[r]) for r in ids}
-    geoms = {r: side_geometry(slices, comps, [r]) for r in ids} if len(ids) <= 60 else {}
+    geoms: dict = {}         # each region's floor, built when a pair with opposite headings needs it
     for i, ra in enumerate(ids):
         for rb in ids[i + 1:]:
-            if ra not in geoms or not _reversed(direction, [ra], [rb]):
+            if not _reversed(direction, [ra], [rb]):
                 continue
+            for r in (ra, rb):
+                if r not in geoms:
+                    geoms[r] = side_geometry(slices, comps, [r])
             inter = geoms[ra].intersection(geoms[rb])
             if not inter.is_empty and inter.area > 0.25 * min(geoms[ra].area, geoms[rb].area):
                 group.union(ra, rb)

@@ -5,6 +5,14 @@ by the site's required clearance (a second slice set); a join of the grown vehic
 plain vehicle (with its margin) makes is a tight spot, and a station the plain vehicle serves
 but the grown one does not is a tight station. Drawing frame for findings, metres.
 
+The grown slices only propose candidates, so they are built at a coarser heading step than
+the check's (:func:`grown_step_deg`: four times it, at most 8°, never finer than the check's;
+the same station and wall-direction headings get slices of their own). They are sound slices:
+a coarser step grows each slice's footprint by the rotation over a wider cell, so they err
+further towards "tight" (they may split the grown vehicle's floor where a finer step would
+not, proposing more candidate joins and stations), and every candidate is confirmed or
+dropped by the exact clearance below.
+
 The clearance a finding states is measured exactly where it stands (:func:`clearance_at`):
 the largest distance between the vehicle outline and the obstacles it meets, over the
 headings at which the vehicle fits there. A place or station where that is at least the
@@ -31,7 +39,19 @@ from floorfit.cspace.headings import arc_deg
 from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.slices import build_slices, choose_headings
 
-__all__ = ["tight_findings", "clearance_at"]
+__all__ = ["tight_findings", "clearance_at", "grown_step_deg"]
+
+#: The grown vehicle's slices use this many times the check's heading step ...
+GROWN_STEP_FACTOR = 4.0
+#: ... but no step coarser than this (degrees), and never a finer step than the check's.
+GROWN_MAX_STEP_DEG = 8.0
+
+
+def grown_step_deg(step_deg: float) -> float:
+    """Uniform heading step (degrees) of the grown vehicle's slices for a check at ``step_deg``:
+    :data:`GROWN_STEP_FACTOR` times it, at most :data:`GROWN_MAX_STEP_DEG` (a check coarser than
+    that keeps its own step)."""
+    return max(step_deg, min(GROWN_STEP_FACTOR * step_deg, GROWN_MAX_STEP_DEG))
 
 
 def tight_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, places: Places,
@@ -44,8 +64,8 @@ def tight_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, pla
     ctx.progress(f"clearance {req:.2f} m")
     grown = replace(vehicle, outline=vehicle.outline.buffer(req, join_style="mitre", mitre_limit=10.0),
                     margin_m=0.0, name=vehicle.name + " + clearance")
-    # the check's own step: the grown vehicle's split is confirmed by exact clearances below
-    step = ctx.heading_step_deg or cs.cells.step_deg
+    # a coarser step than the check's: the grown vehicle's split is confirmed by exact clearances below
+    step = grown_step_deg(ctx.heading_step_deg or cs.cells.step_deg)
     gslices = build_slices(plan, grown, cells=choose_headings(plan, grown, heading_step_deg=step,
                                                                 extra_headings=ctx.extra_headings),
                            workers=ctx.workers, obstacles=cs.obstacles)

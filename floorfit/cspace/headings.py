@@ -30,6 +30,9 @@ MERGE_DEG = 1e-6
 #: each side, degrees, so that their own cell is narrow and nearly exact: a vehicle that
 #: fits a tight aisle only when aligned with it is not misjudged.
 GUARD_DEG = 0.1
+#: :meth:`HeadingCells.indices_of` searches headings up to this size (degrees); larger ones
+#: (and non-finite ones) are measured against every slice, as rounding there is coarse.
+SEARCH_MAX_DEG = 1e5
 
 
 def wrap_deg(h):
@@ -91,8 +94,29 @@ class HeadingCells:
         return int(np.argmin(d))
 
     def indices_of(self, headings_deg) -> np.ndarray:
-        """Vectorised :meth:`index_of`."""
+        """Vectorised :meth:`index_of`: for a 1-D array of headings (degrees), the same indices.
+
+        The nearest slice heading on the circle is one of the two around the wrapped heading,
+        found by binary search (``np.searchsorted``) instead of measuring every slice; the two
+        arcs are measured as :meth:`index_of` does, and a tie goes to the lower index, as
+        ``argmin`` does. Non-finite headings and those beyond ±:data:`SEARCH_MAX_DEG` are
+        measured against every slice.
+        """
         h = np.asarray(headings_deg, dtype=float)
+        hs = self.headings
+        n = len(hs)
+        j = np.searchsorted(hs, wrap_deg(h))
+        below, above = (j - 1) % n, j % n
+        d_below = np.abs(arc_deg(hs[below], h))
+        d_above = np.abs(arc_deg(hs[above], h))
+        out = np.where((d_above < d_below) | ((d_above == d_below) & (above < below)), above, below)
+        odd = ~(np.abs(h) <= SEARCH_MAX_DEG)
+        if odd.any():
+            out[odd] = self._indices_by_scan(h[odd])
+        return out
+
+    def _indices_by_scan(self, h: np.ndarray) -> np.ndarray:
+        """Index of the nearest slice heading to each of ``h`` (degrees), measuring every slice."""
         d = np.abs(arc_deg(self.headings[None, :], h[:, None]))
         return np.argmin(d, axis=1)
 

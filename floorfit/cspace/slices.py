@@ -264,13 +264,15 @@ class SliceSet:
         poses = np.asarray(poses, dtype=float).reshape(-1, 3)
         ks = self.cells.indices_of(poses[:, 2])
         out = np.zeros(len(poses), dtype=bool)
-        for k in np.unique(ks):
-            sel = ks == k
-            pts = shapely.points(poses[sel, 0], poses[sel, 1])
-            idx = self.tree(int(k)).query(pts, predicate="intersects")
-            hit = np.zeros(sel.sum(), dtype=bool)
-            hit[idx[0]] = True
-            out[np.flatnonzero(sel)] = hit
+        if not len(poses):
+            return out
+        # poses grouped by slice (one sort), each group queried against its slice's tree
+        order = np.argsort(ks, kind="stable")
+        groups = np.split(order, np.flatnonzero(np.diff(ks[order])) + 1)
+        pts = shapely.points(poses[:, 0], poses[:, 1])
+        for sel in groups:
+            idx = self.tree(int(ks[sel[0]])).query(pts[sel], predicate="intersects")
+            out[sel[idx[0]]] = True
         return out
 
     def settings(self) -> dict:
