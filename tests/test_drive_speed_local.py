@@ -165,3 +165,33 @@ def test_route_query_of_a_differential_base_stays_clear(world):
 def direction_changes_of(segment_dicts) -> int:
     dirs = [s["direction"] for s in segment_dicts if s["type"] != "rotate" and s["length_m"] > 0]
     return sum(1 for p, q in zip(dirs, dirs[1:]) if p != q)
+
+
+def test_rotate_drive_rotate_costs_made_without_segments_match_the_segments():
+    from floorfit.motion.poses import wrap_angle
+    from floorfit.motion.subdivision import _rtr_options, _rtr_segments
+
+    rng = np.random.default_rng(3)
+    for _ in range(500):
+        a = (rng.uniform(-50, 50), rng.uniform(-50, 50), rng.uniform(-20, 20))
+        b = (a[0] + rng.normal(0, 3), a[1] + rng.normal(0, 3), rng.uniform(-20, 20))
+        for cost, t1, drive, last in _rtr_options(a, b, reverse=True):
+            spin, go, sync = _rtr_segments(a, t1, drive, last)
+            assert last == float(wrap_angle(b[2] - go.end[2]))        # the same bits as from the segments
+            assert cost == abs(t1) + abs(last) + (math.pi if drive < 0 else 0.0)
+            assert spin.angle_deg == math.degrees(t1) and go.sign * go.length_m == drive
+            assert sync.end[:2] == pytest.approx(b[:2], abs=1e-9)
+            assert math.isclose(math.cos(sync.end[2] - b[2]), 1.0, abs_tol=1e-12)
+
+
+def test_segments_made_without_numpy_are_the_same_bits():
+    from floorfit.motion.subdivision import _drive, _turn
+
+    rng = np.random.default_rng(4)
+    for _ in range(3000):
+        a = (rng.uniform(-300, 300), rng.uniform(-300, 300), rng.uniform(-30, 30))
+        v = float(rng.normal(0, 5)) if rng.random() > 0.05 else float(rng.choice([0.0, -0.0]))
+        assert _turn(a, v) == rotate(a, v)
+        assert _drive(a, v) == straight(a, v)
+    a = (np.float64(1.5), np.float64(-2.0), np.float64(0.3))
+    assert _turn(a, 0.7) == rotate(a, 0.7) and _drive(a, -1.1) == straight(a, -1.1)
