@@ -1,13 +1,12 @@
 """The check's station-pair drives on a second process give the answer one process gives.
 
 The manoeuvre budget's drives run on a forked child while the clearance and turnability stages
-run in the parent (:mod:`floorfit.analysis.sidecar`); findings, reach, cuts, notes and swept routes
-must be those of the one-process check, in the same order.
+run in the parent (:mod:`floorfit.forking`, whose own behaviour tests/test_report_speed.py tests);
+findings, reach, cuts, notes and swept routes must be those of the one-process check, in the
+same order.
 """
 
 from __future__ import annotations
-
-import os
 
 import pytest
 import shapely
@@ -16,11 +15,11 @@ import floorfit as ff
 import floorfit.analysis.check as check_module
 from floorfit.analysis.check import run_check
 from floorfit.analysis.findings import Station
-from floorfit.analysis.sidecar import Sidecar, fork_available
+from floorfit.forking import _may_fork
 from floorfit.plan.model import Doorway, Plan
 from floorfit.plan.site import Site
 
-pytestmark = pytest.mark.skipif(not fork_available(), reason="needs the fork start method")
+pytestmark = pytest.mark.skipif(not _may_fork(2), reason="needs a forked second process")
 
 
 def _plan() -> Plan:
@@ -30,32 +29,6 @@ def _plan() -> Plan:
     solids = [shapely.box(4.0, 0, 4.05, 1.5), shapely.box(4.0, 2.5, 4.05, 4),
               shapely.box(7.1, 2.9, 8.05, 2.95), shapely.box(6.5, 2.9, 6.55, 4)]
     return Plan.from_geometries(walls=[outer], solids=solids, doors=[Doorway(4.025, 2.0, 1.0, label="D-1")])
-
-
-def _child_pid() -> int:
-    return os.getpid()
-
-
-def _fails() -> None:
-    raise ValueError("stage failed on purpose")
-
-
-def test_sidecar_runs_apart_and_returns_the_value():
-    side = Sidecar(_child_pid)
-    assert side.running_apart
-    assert side.result() != os.getpid()          # computed by another process
-
-
-def test_sidecar_raises_the_childs_error_here():
-    side = Sidecar(_fails)
-    with pytest.raises(ValueError, match="on purpose"):
-        side.result()
-
-
-def test_sidecar_disabled_runs_here_when_asked():
-    side = Sidecar(_child_pid, enabled=False)
-    assert not side.running_apart
-    assert side.result() == os.getpid()
 
 
 def _summary(r):
@@ -81,13 +54,14 @@ def test_check_with_drives_apart_equals_one_process(monkeypatch, case):
     one = run_check(_plan(), vehicle, stations, site=site, heading_step_deg=3.0, workers=1)
     monkeypatch.setattr(check_module, "DRIVES_APART_MIN_WORK", 0)
     started = []
-    real_init = Sidecar.__init__
+    real_start = check_module.start
 
-    def watching_init(self, *a, **kw):
-        real_init(self, *a, **kw)
-        started.append(self.running_apart)
+    def watching_start(*a, **kw):
+        pending = real_start(*a, **kw)
+        started.append(pending.apart)
+        return pending
 
-    monkeypatch.setattr(Sidecar, "__init__", watching_init)
+    monkeypatch.setattr(check_module, "start", watching_start)
     two = run_check(_plan(), vehicle, stations, site=site, heading_step_deg=3.0, workers=2)
     assert started == [True]
     assert _summary(two) == _summary(one)

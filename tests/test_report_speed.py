@@ -15,7 +15,8 @@ from matplotlib.patches import Circle, PathPatch, Rectangle
 from matplotlib.path import Path
 from report_fixtures import demo_result
 
-from floorfit.report import apart, write_report
+from floorfit import forking as apart
+from floorfit.report import write_report
 from floorfit.report.bounding_entities import sheet_obstacles
 from floorfit.report.geometry import add_polygon_patch, line_segments, parts, polygon_path
 from floorfit.report.remedies import RemedyContext, _geodesic, _nearest_goal

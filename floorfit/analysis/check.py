@@ -33,7 +33,6 @@ from floorfit.analysis.maneuvers import maneuver_findings, route_sweeps
 from floorfit.analysis.noturn import MAP_MAX_CELLS, noturn_findings, turnability_map
 from floorfit.analysis.passages import min_width
 from floorfit.analysis.places import find_places, station_regions
-from floorfit.analysis.sidecar import Sidecar
 from floorfit.analysis.tight import tight_findings
 from floorfit.analysis.traffic import traffic_stage
 from floorfit.cspace.roadmap import build_roadmap
@@ -41,6 +40,7 @@ from floorfit.cspace.sizelimits import check_problem_size
 from floorfit.cspace.slicepool import POOL_MIN_WORK, pool_size, worker_count
 from floorfit.cspace.slices import build_slices, choose_headings, obstacles_for
 from floorfit.errors import SiteError
+from floorfit.forking import start
 from floorfit.plan.model import Plan
 from floorfit.plan.site import Site
 from floorfit.plan.stations import Station, validate_stations
@@ -204,19 +204,20 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     # the station-pair drives need neither the clearance nor the turnability stage (nor they them):
     # on a large site they run on a second process meanwhile (same code, same counted limits)
     apart = _drives_apart(ctx, cs, routes)
-    drives = Sidecar(_manoeuvre_part, ctx, cs, routes, reach, cuts, _noop if apart else None, enabled=apart)
-    if drives.running_apart:
+    drives = start(_manoeuvre_part, ctx, cs, routes, reach, cuts, _noop if apart else None,
+                   workers=ctx.workers if apart else 1)
+    if drives.apart:
         ctx.progress(f"{_manoeuvre_words(ctx)} on a second process, meanwhile:")
     findings += tight_findings(ctx, cs, clear, places, findings)
     n_tight = len(ctx.notes)
-    if not drives.running_apart:
+    if not drives.apart:
         manoeuvres, route_dicts = drives.result()[:2]
 
     ctx.progress("turnability map")
     map_cell = choose_cell_size(clear.bounds, 0.1, MAP_MAX_CELLS)
     turnability, raster, fits = turnability_map(ctx, cs, clear, map_cell)
     noturn = noturn_findings(ctx, cs, turnability, raster, fits, map_cell)
-    if drives.running_apart:
+    if drives.apart:
         ctx.progress(f"waiting for the {_manoeuvre_words(ctx)}")
         n_turn = len(ctx.notes)
         manoeuvres, route_dicts, reach_after, cuts_after, notes = drives.result()

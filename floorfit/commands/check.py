@@ -110,7 +110,7 @@ def check_and_report(args):
     if getattr(args, "revision", None):
         project["revision"] = args.revision
     written = write_report(result, args.out, force=args.force, quiet=args.quiet, project=project,
-                           paper=getattr(args, "paper", "a4"))
+                           paper=getattr(args, "paper", "a4"), workers=args.workers)
     return result, written
 
 

@@ -10,7 +10,6 @@ number of processes. Local frame, metres; headings in degrees.
 
 from __future__ import annotations
 
-import os
 import signal
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor
@@ -20,6 +19,7 @@ from shapely.geometry import Polygon
 
 from floorfit.cspace.freespace import slice_free
 from floorfit.cspace.minkowski import ObstacleSet
+from floorfit.forking import usable_cores
 
 __all__ = ["run_slice_jobs", "worker_count", "pool_size", "POOL_MIN_WORK"]
 
@@ -54,10 +54,7 @@ def worker_count(workers: int | None) -> int:
     """Processes to use for ``workers`` (None or 0: every core this process may run on)."""
     if workers:
         return max(1, int(workers))
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except (AttributeError, OSError):          # pragma: no cover - platforms without affinity
-        return os.cpu_count() or 1
+    return usable_cores()
 
 
 def _ignore_interrupt() -> None:

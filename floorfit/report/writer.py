@@ -201,7 +201,7 @@ def _sync_folder(folder: Path) -> None:
 def _render(result: Any, chosen: list[str], progress: Progress, project: Any = None,
             paper: str = "a4", workers: int | None = None) -> dict[str, bytes]:
     """The bytes of every chosen file. report.pdf is drawn in a second process while this one draws
-    the others where ``workers`` (None: the usable cores) allows it (:mod:`floorfit.report.apart`);
+    the others where ``workers`` (None: the usable cores) allows it (:mod:`floorfit.forking`);
     the bytes are the same either way."""
     # Imported here so that `import floorfit.report` stays light.
     from floorfit.report.figures import draw_report_figures  # noqa: F401  (loaded before the stages start)
@@ -222,7 +222,7 @@ def _render(result: Any, chosen: list[str], progress: Progress, project: Any = N
         sheets = build_sheets(result, viewport_mm=layout.viewport, obstacles=obstacles)
     try:
         if "pdf" in chosen:
-            from floorfit.report.apart import start
+            from floorfit.forking import start
             from floorfit.report.pdf import render_pdf
 
             pending = start(render_pdf, result, workers=workers, project=project, paper=paper, sheets=sheets,

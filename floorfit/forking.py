@@ -1,18 +1,23 @@
-"""One part of the report drawn in a second process while this one draws the rest.
+"""One part of a run done in a forked second process while this process does the rest.
 
-report.pdf takes the longest to draw (its text above all) and needs nothing the other files
-make, so :func:`start` can draw it in a forked child process while the writer draws the figures,
-report.html and overlay.dxf. The child inherits the finished check by the fork (nothing is
-pickled on the way in) and sends back only the bytes, so the files are the same as drawn in one
-process. Where no second process can be used (one core, ``workers=1``, no ``fork`` start method,
-a daemonic process, a child that fails to start or dies), the part is drawn in this process
-when it is asked for: the same bytes, and an error is raised where drawing it raises.
+Two users: the report writer draws report.pdf (the longest part, needing nothing the other
+files make) while it draws the figures, report.html and overlay.dxf; the site check plans its
+station-pair drives while it runs the clearance and turnability stages. :func:`start` runs
+``fn(*args, **kwargs)`` in a forked child: the child inherits this process's memory by the fork
+(the finished check, the slices; nothing is pickled on the way in) and sends back only the
+value, so the answer is the one this process would compute. Where no second process can be
+used (one core, ``workers=1``, no ``fork`` start method, a worker of a process pool, a child
+that fails to start, fails or dies), the part is done in this process when its result is asked
+for: the same value, and an error is raised where doing it raises. Ctrl-C reaches this process,
+which stops the child.
 """
 
 from __future__ import annotations
 
+import gc
 import multiprocessing
 import os
+import signal
 import sys
 from collections.abc import Callable
 from typing import Any
@@ -29,7 +34,7 @@ def usable_cores() -> int:
 
 
 def _may_fork(workers: int | None) -> bool:
-    """True when a forked child may draw a part: Linux (fork is safe with matplotlib there), more
+    """True when a forked child may do a part: Linux (fork is safe with matplotlib there), more
     than one worker asked for or (``None``) more than one usable core and a process that is not
     itself a worker of a process pool (a batch's pool already shares out the cores; daemonic
     processes may not have children)."""
@@ -42,11 +47,12 @@ def _may_fork(workers: int | None) -> bool:
     return int(workers) >= 2
 
 
-def _child(conn: Any, fn: Callable[..., bytes], args: tuple, kwargs: dict) -> None:
-    """In the child: draw, send ``(True, bytes)`` or ``(False, None)`` when drawing failed."""
+def _child(conn: Any, fn: Callable[..., Any], args: tuple, kwargs: dict) -> None:
+    """In the child: do the part, send ``(True, value)`` or ``(False, None)`` when it failed."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)      # Ctrl-C is the parent's; it stops the child
     try:
         data = fn(*args, **kwargs)
-    except BaseException:           # the parent draws it again itself and raises there
+    except BaseException:           # the parent does it again itself and raises there
         conn.send((False, None))
     else:
         conn.send((True, data))
@@ -55,9 +61,9 @@ def _child(conn: Any, fn: Callable[..., bytes], args: tuple, kwargs: dict) -> No
 
 
 class Pending:
-    """A part being drawn: :meth:`result` gives its bytes (waiting for the child when there is one)."""
+    """A part under way: :meth:`result` gives its value (waiting for the child when there is one)."""
 
-    def __init__(self, fn: Callable[..., bytes], args: tuple, kwargs: dict, workers: int | None):
+    def __init__(self, fn: Callable[..., Any], args: tuple, kwargs: dict, workers: int | None):
         self._call = (fn, args, kwargs)
         self._proc = None
         self._conn = None
@@ -68,7 +74,11 @@ class Pending:
             sys.stderr.flush()
             try:
                 proc = ctx.Process(target=_child, args=(send, fn, args, kwargs), daemon=True)
-                proc.start()
+                gc.freeze()        # the child's collector leaves the inherited objects alone: fewer pages copied
+                try:
+                    proc.start()
+                finally:
+                    gc.unfreeze()
             except OSError:
                 recv.close()
             else:
@@ -78,11 +88,11 @@ class Pending:
 
     @property
     def apart(self) -> bool:
-        """True while a child process is drawing the part."""
+        """True while a child process is doing the part."""
         return self._proc is not None
 
-    def result(self) -> bytes:
-        """The part's bytes: the child's, or drawn here when there is no child or it failed."""
+    def result(self) -> Any:
+        """The part's value: the child's, or computed here when there is no child or it failed."""
         ok, data = False, None
         if self._proc is not None:
             try:
@@ -99,7 +109,7 @@ class Pending:
         return fn(*args, **kwargs)
 
     def cancel(self) -> None:
-        """Stop the child (if any) and release it; :meth:`result` then draws the part here."""
+        """Stop the child (if any) and release it; :meth:`result` then does the part here."""
         if self._proc is None:
             return
         self._conn.close()
@@ -109,7 +119,7 @@ class Pending:
         self._proc, self._conn = None, None
 
 
-def start(fn: Callable[..., bytes], *args: Any, workers: int | None = None, **kwargs: Any) -> Pending:
-    """Begin ``fn(*args, **kwargs)`` (which returns bytes) in a forked child when ``workers`` (None:
-    the usable cores) allows a second process; see :class:`Pending`."""
+def start(fn: Callable[..., Any], *args: Any, workers: int | None = None, **kwargs: Any) -> Pending:
+    """Begin ``fn(*args, **kwargs)`` (whose value must pickle) in a forked child when ``workers``
+    (None: the usable cores) allows a second process; see :class:`Pending`."""
     return Pending(fn, args, kwargs, workers)
