@@ -43,7 +43,7 @@ def fill_polygons(geoms, x0: float, y0: float, cell: float, nx: int, ny: int) ->
     xc = a[e, 0] + t * (b[e, 0] - a[e, 0])
     col = np.ceil((xc - x0) / cell - 0.5).astype(np.int64)
     col = np.clip(col, 0, nx)
-    diff = np.zeros((ny, nx + 1), dtype=np.int32)
-    np.add.at(diff, (rows, col), 1)
+    # crossings per (row, column), counted in one pass (the same counts as np.add.at, faster)
+    diff = np.bincount(rows * (nx + 1) + col, minlength=ny * (nx + 1)).reshape(ny, nx + 1)
     mask[:] = (np.cumsum(diff, axis=1)[:, :nx] % 2).astype(bool)
     return mask
