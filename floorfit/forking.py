@@ -99,10 +99,10 @@ class Pending:
                 ok, data = self._conn.recv()
             except (EOFError, OSError):     # the child died before sending
                 ok = False
-            finally:
-                self._conn.close()
-                self._proc.join()
-                self._proc, self._conn = None, None
+            except BaseException:           # Ctrl-C while waiting: stop the child rather than wait for it
+                self.cancel()
+                raise
+            self._release()
         if ok:
             return data
         fn, args, kwargs = self._call
@@ -112,9 +112,13 @@ class Pending:
         """Stop the child (if any) and release it; :meth:`result` then does the part here."""
         if self._proc is None:
             return
-        self._conn.close()
         if self._proc.is_alive():
             self._proc.terminate()
+        self._release()
+
+    def _release(self) -> None:
+        """Close the pipe and reap the child (which has sent its value, ended or been stopped)."""
+        self._conn.close()
         self._proc.join()
         self._proc, self._conn = None, None
 

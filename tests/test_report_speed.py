@@ -213,3 +213,33 @@ def test_a_pool_worker_draws_in_one_process_unless_asked(monkeypatch):
     monkeypatch.setattr(apart, "usable_cores", lambda: 1)
     monkeypatch.setattr(apart.multiprocessing, "parent_process", lambda: None)
     assert not apart.start(bytes, 1).apart                          # one core: drawn here
+
+
+def _sleeps(seconds):
+    import time
+
+    time.sleep(seconds)
+    return seconds
+
+
+def test_ctrl_c_while_waiting_stops_the_child_instead_of_waiting_for_it():
+    # the child ignores Ctrl-C (the parent's to handle): the parent, interrupted while it waits,
+    # must stop the child, not wait out its minute of work
+    import signal
+
+    pending = apart.start(_sleeps, 60, workers=2)
+    assert pending.apart
+    proc = pending._proc
+
+    def interrupt(signum, frame):
+        raise KeyboardInterrupt
+
+    old = signal.signal(signal.SIGALRM, interrupt)
+    signal.setitimer(signal.ITIMER_REAL, 0.3)
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            pending.result()
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, old)
+    assert proc.exitcode == -signal.SIGTERM and not pending.apart

@@ -206,17 +206,21 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     apart = _drives_apart(ctx, cs, routes)
     drives = start(_manoeuvre_part, ctx, cs, routes, reach, cuts, _noop if apart else None,
                    workers=ctx.workers if apart else 1)
-    if drives.apart:
-        ctx.progress(f"{_manoeuvre_words(ctx)} on a second process, meanwhile:")
-    findings += tight_findings(ctx, cs, clear, places, findings)
-    n_tight = len(ctx.notes)
-    if not drives.apart:
-        manoeuvres, route_dicts = drives.result()[:2]
+    try:
+        if drives.apart:
+            ctx.progress(f"{_manoeuvre_words(ctx)} on a second process, meanwhile:")
+        findings += tight_findings(ctx, cs, clear, places, findings)
+        n_tight = len(ctx.notes)
+        if not drives.apart:
+            manoeuvres, route_dicts = drives.result()[:2]
 
-    ctx.progress("turnability map")
-    map_cell = choose_cell_size(clear.bounds, 0.1, MAP_MAX_CELLS)
-    turnability, raster, fits = turnability_map(ctx, cs, clear, map_cell)
-    noturn = noturn_findings(ctx, cs, turnability, raster, fits, map_cell)
+        ctx.progress("turnability map")
+        map_cell = choose_cell_size(clear.bounds, 0.1, MAP_MAX_CELLS)
+        turnability, raster, fits = turnability_map(ctx, cs, clear, map_cell)
+        noturn = noturn_findings(ctx, cs, turnability, raster, fits, map_cell)
+    except BaseException:          # an error or Ctrl-C here: the drives are not wanted any more
+        drives.cancel()
+        raise
     if drives.apart:
         ctx.progress(f"waiting for the {_manoeuvre_words(ctx)}")
         n_turn = len(ctx.notes)
