@@ -184,14 +184,18 @@ def test_rotate_drive_rotate_costs_made_without_segments_match_the_segments():
             assert math.isclose(math.cos(sync.end[2] - b[2]), 1.0, abs_tol=1e-12)
 
 
-def test_segments_made_without_numpy_are_the_same_bits():
-    from floorfit.motion.subdivision import _drive, _turn
+def test_straights_and_turns_end_where_poses_along_puts_them_to_the_bit():
+    # segments.straight and rotate compute their end pose in plain floats; it must be, bit for bit,
+    # the pose poses_along (numpy) gives at the end of the segment, as it was computed before
+    from floorfit.motion.segments import poses_along
 
     rng = np.random.default_rng(4)
     for _ in range(3000):
         a = (rng.uniform(-300, 300), rng.uniform(-300, 300), rng.uniform(-30, 30))
         v = float(rng.normal(0, 5)) if rng.random() > 0.05 else float(rng.choice([0.0, -0.0]))
-        assert _turn(a, v) == rotate(a, v)
-        assert _drive(a, v) == straight(a, v)
+        for seg in (rotate(a, v), straight(a, v)):
+            assert seg.end == tuple(float(c) for c in poses_along(seg, [1.0])[0])
     a = (np.float64(1.5), np.float64(-2.0), np.float64(0.3))
-    assert _turn(a, 0.7) == rotate(a, 0.7) and _drive(a, -1.1) == straight(a, -1.1)
+    for seg in (rotate(a, 0.7), straight(a, -1.1)):
+        assert seg.end == tuple(float(c) for c in poses_along(seg, [1.0])[0])
+        assert all(type(c) is float for c in seg.start + seg.end)

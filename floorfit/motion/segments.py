@@ -96,12 +96,24 @@ def poses_along(seg: Segment, fractions) -> np.ndarray:
     return out
 
 
+def turned_heading(h_rad: float, angle_rad: float) -> float:
+    """The heading (rad) a turn by ``angle_rad`` from ``h_rad`` ends at, as :func:`rotate` computes it
+    (through the segment's angle in degrees)."""
+    return float(h_rad) + math.radians(math.degrees(angle_rad))
+
+
 def _finish(kind, direction, length, angle_rad, radius, start) -> Segment:
-    seg = Segment(kind, direction, float(length), math.degrees(angle_rad), radius,
-                  tuple(float(v) for v in start), tuple(float(v) for v in start))
-    end = poses_along(seg, [1.0])[0]
-    return Segment(kind, direction, seg.length_m, seg.angle_deg, radius, seg.start,
-                   (float(end[0]), float(end[1]), float(end[2])))
+    x0, y0, h0 = (float(v) for v in start)
+    length = float(length)
+    if kind == "straight":      # the arithmetic of poses_along at t = 1, in plain floats (the same bits,
+        d = (1 if direction == "forward" else -1) * length          # without numpy's per-call cost)
+        end = (x0 + d * math.cos(h0), y0 + d * math.sin(h0), h0)
+    elif kind == "rotate":
+        end = (x0, y0, turned_heading(h0, angle_rad))
+    else:
+        seg = Segment(kind, direction, length, math.degrees(angle_rad), radius, (x0, y0, h0), (x0, y0, h0))
+        end = tuple(float(v) for v in poses_along(seg, [1.0])[0])
+    return Segment(kind, direction, length, math.degrees(angle_rad), radius, (x0, y0, h0), end)
 
 
 def straight(start: Sequence[float], distance_m: float) -> Segment:

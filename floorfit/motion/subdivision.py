@@ -54,6 +54,7 @@ from floorfit.motion.segments import (
     poses_along,
     rotate,
     straight,
+    turned_heading,
 )
 
 __all__ = [
@@ -103,23 +104,6 @@ def _rotation_cost(segs: list[Segment]) -> float:
     return sum(abs(math.radians(s.angle_deg)) for s in segs if s.kind == "rotate")
 
 
-def _turn(a, angle_rad: float) -> Segment:
-    """:func:`floorfit.motion.segments.rotate` made without numpy: the same arithmetic, so the same bits
-    (the steering methods make many candidates that are checked and dropped)."""
-    x, y, h = (float(v) for v in a)
-    deg = math.degrees(angle_rad)
-    return Segment("rotate", None, 0.0, deg, None, (x, y, h), (x, y, h + math.radians(deg) * 1.0))
-
-
-def _drive(a, distance_m: float) -> Segment:
-    """:func:`floorfit.motion.segments.straight` made without numpy (the same arithmetic, so the same bits)."""
-    x, y, h = (float(v) for v in a)
-    direction = "forward" if distance_m >= 0 else "reverse"
-    length = float(abs(distance_m))
-    d = (1 if distance_m >= 0 else -1) * length * 1.0
-    return Segment("straight", direction, length, 0.0, None, (x, y, h), (x + d * math.cos(h), y + d * math.sin(h), h))
-
-
 def _rtr_options(a, b, reverse: bool) -> list[tuple[float, float, float, float]]:
     """Rotate to face ``b`` (or away from it, driving backwards), drive, rotate to b's heading, without
     making the segments: (cost, first turn rad, signed drive m, last turn rad) of each way. The cost
@@ -131,7 +115,7 @@ def _rtr_options(a, b, reverse: bool) -> list[tuple[float, float, float, float]]
     for heading, drive, penalty in [(towards, dist, 0.0)] + ([(towards + math.pi, -dist, math.pi)] if reverse else []):
         first = float(wrap_angle(heading - a[2]))
         for t1 in (first, first - math.copysign(2 * math.pi, first)) if first else (0.0,):
-            faced = float(a[2]) + math.radians(math.degrees(t1)) * 1.0     # the heading rotate() ends at
+            faced = turned_heading(a[2], t1)                                # where rotate() ends
             last = float(wrap_angle(b[2] - faced))
             out.append((abs(t1) + abs(last) + penalty, t1, drive, last))
     return out
@@ -139,9 +123,9 @@ def _rtr_options(a, b, reverse: bool) -> list[tuple[float, float, float, float]]
 
 def _rtr_segments(a, t1: float, drive: float, last: float) -> list[Segment]:
     """The rotation by ``t1``, the drive and the rotation by ``last`` (radians, metres) from ``a``."""
-    spin = _turn(a, t1)
-    go = _drive(spin.end, drive)
-    return [spin, go, _turn(go.end, last)]
+    spin = rotate(a, t1)
+    go = straight(spin.end, drive)
+    return [spin, go, rotate(go.end, last)]
 
 
 def _two_drives(a, b, reverse: bool, tilts: Sequence[float]) -> Iterator[list[Segment]]:
@@ -160,11 +144,11 @@ def _two_drives(a, b, reverse: bool, tilts: Sequence[float]) -> Iterator[list[Se
             c2 = (u1[0] * dy - u1[1] * dx) / det
             if not reverse and (c1 < -_SAME or c2 < -_SAME):
                 continue
-            segs = [_turn(a, b1)]
-            segs.append(_drive(segs[-1].end, c1))
-            segs.append(_turn(segs[-1].end, b2 - b1))
-            segs.append(_drive(segs[-1].end, c2))
-            segs.append(_turn(segs[-1].end, -b2))
+            segs = [rotate(a, b1)]
+            segs.append(straight(segs[-1].end, c1))
+            segs.append(rotate(segs[-1].end, b2 - b1))
+            segs.append(straight(segs[-1].end, c2))
+            segs.append(rotate(segs[-1].end, -b2))
             yield segs
 
 
@@ -179,18 +163,18 @@ def differential_steer(reverse: bool, tilts: Sequence[float]) -> Steer:
         dh = b[2] - a[2]
         if dist <= _SAME:
             other = dh - math.copysign(2 * math.pi, dh) if dh else 0.0
-            yield from ([[_turn(a, dh)], [_turn(a, other)]] if dh else [[_turn(a, 0.0)]])
+            yield from ([[rotate(a, dh)], [rotate(a, other)]] if dh else [[rotate(a, 0.0)]])
             return
         c, s = math.cos(a[2]), math.sin(a[2])
         along, side = c * dx + s * dy, -s * dx + c * dy
         if abs(dh) <= _SAME and abs(side) <= _SAME * (1 + abs(along)) and (along > 0 or reverse):
-            yield [_drive(a, along)]
+            yield [straight(a, along)]
         ways = sorted(_rtr_options(a, b, reverse), key=lambda item: item[0])
         yield from (_rtr_segments(a, t1, drive, last) for _, t1, drive, last in ways)
         if abs(dh) <= _SAME:
             yield from _two_drives(a, b, reverse, tilts)
         else:   # a turn and a translation at once: turn first, or translate first
-            spin = _turn(a, dh)
+            spin = rotate(a, dh)
             yield from ([spin] + rest for rest in _two_drives(spin.end, (b[0], b[1], spin.end[2]), reverse, tilts))
 
     return steer
