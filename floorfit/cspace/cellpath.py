@@ -9,8 +9,6 @@ checked with ``covers``).
 
 from __future__ import annotations
 
-import heapq
-
 import networkx as nx
 import numpy as np
 import shapely
@@ -180,7 +178,7 @@ class TriangleMesh:
         start = np.searchsorted(node[order], np.arange(n + 1))
         self.graph = csr_matrix((np.concatenate([weights[first], weights[first]])[order],
                                  np.concatenate([b, a])[order], start), shape=(n, n))
-        self._lists: tuple[list, list, list] | None = None
+        self._G: nx.Graph | None = None
 
     def __len__(self) -> int:
         return len(self.cent)
@@ -194,7 +192,8 @@ class TriangleMesh:
 
         Dijkstra (:func:`scipy.sparse.csgraph.dijkstra`, from both ends) finds a shortest chain; when
         every edge off it lies on chains longer by more than :data:`_TIE_M`, it is the only shortest
-        one, so the one A* finds; else A* itself runs (:meth:`_astar`: equal chains, its choice)."""
+        one, so the one A* finds; else A* itself runs on the networkx graph (:meth:`_astar`: equal chains,
+        its choice)."""
         if src == dst:
             return np.array([src])
         d, pred = dijkstra(self.graph, indices=[src, dst], return_predecessors=True)
@@ -218,41 +217,21 @@ class TriangleMesh:
         return None if got is None else np.asarray(got)
 
     def _astar(self, src: int, dst: int) -> list | None:
-        """:func:`networkx.astar_path` (heuristic: the centroid distance) run on the neighbour lists."""
-        h = np.hypot(*(self.cent - self.cent[dst]).T).tolist()
-        if self._lists is None:
-            g = self.graph
-            self._lists = (g.indptr.tolist(), g.indices.tolist(), g.data.tolist())
-        start, nxt, cost = self._lists
-        queue = [(0, 0, src, 0, None)]
-        pushed = 1
-        enqueued: dict = {}
-        explored: dict = {}
-        while queue:
-            _, _, cur, dist, parent = heapq.heappop(queue)
-            if cur == dst:
-                path = [cur]
-                while parent is not None:
-                    path.append(parent)
-                    parent = explored[parent]
-                return path[::-1]
-            if cur in explored:
-                if explored[cur] is None or enqueued[cur][0] < dist:
-                    continue
-            explored[cur] = parent
-            for k in range(start[cur], start[cur + 1]):
-                nb = nxt[k]
-                ncost = dist + cost[k]
-                if nb in enqueued:
-                    qcost, hn = enqueued[nb]
-                    if qcost <= ncost:
-                        continue
-                else:
-                    hn = h[nb]
-                enqueued[nb] = ncost, hn
-                heapq.heappush(queue, (ncost + hn, pushed, nb, ncost, cur))
-                pushed += 1
-        return None
+        """:func:`networkx.astar_path` (heuristic: the centroid distance) on :meth:`networkx_graph`; None
+        when the triangles are not joined."""
+        cent = self.cent
+        try:
+            return nx.astar_path(self.networkx_graph(), src, dst, weight="weight",
+                                 heuristic=lambda u, v: float(np.hypot(*(cent[u] - cent[v]))))
+        except nx.NetworkXNoPath:
+            return None
+
+    def networkx_graph(self) -> nx.Graph:
+        """The dual graph as a networkx Graph (:func:`dual_graph`), made when first asked for (only
+        chains with equal rivals, or pieces touching at a vertex, need it) and kept."""
+        if self._G is None:
+            self._G = dual_graph(len(self.cent), *self.edges)
+        return self._G
 
     def chain(self, ta: np.ndarray, tb: np.ndarray) -> np.ndarray | None:
         """Shortest chain from the first triangle of ``ta`` to the first of ``tb``; when those are not
@@ -261,7 +240,7 @@ class TriangleMesh:
         got = self._shortest(int(ta[0]), int(tb[0]))
         if got is not None:
             return got
-        G = dual_graph(len(self.cent), *self.edges)
+        G = self.networkx_graph()
         for s in ta:
             for d in tb:
                 if nx.has_path(G, int(s), int(d)):
