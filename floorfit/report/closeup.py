@@ -24,8 +24,7 @@ from matplotlib.figure import Figure
 from matplotlib.patches import Circle, PathPatch, Rectangle
 
 from floorfit.report.bounding_entities import _Obstacles
-from floorfit.report.figures import _line_segments, _polygon_path
-from floorfit.report.geometry import add_polygon_patch, parts
+from floorfit.report.geometry import add_polygon_patch, line_segments, parts, polygon_path
 from floorfit.report.kinds import kind_style, numbered_findings, plain_text
 from floorfit.report.sheets import _CIRCLE_NEED, VIEWPORT_MM, Dimension, Pose, Sheet, _placed, _unit
 
@@ -130,13 +129,13 @@ def draw_closeup(ax: Any, result: Any, sheet: Sheet,  # noqa: C901  (one drawing
     pad = 0.05 * max(x1 - x0, y1 - y0)
     local_box = (x0 - ox - pad, y0 - oy - pad, x1 - ox + pad, y1 - oy + pad)
     solids, walls, over = obst.clipped(local_box)
-    path = _polygon_path(solids, shift)
+    path = polygon_path(solids, shift)
     if path is not None:
         add_polygon_patch(ax, PathPatch(path, facecolor=_SOLID_FACE, edgecolor=_WALL, linewidth=0.6, zorder=2))
-    segs = _line_segments(walls, shift)
+    segs = line_segments(walls, shift)
     if segs:
         ax.add_collection(LineCollection(segs, colors=_WALL, linewidths=1.1, zorder=3, capstyle="butt"))
-    osegs = _line_segments(over, shift)
+    osegs = line_segments(over, shift)
     if osegs:
         ax.add_collection(LineCollection(osegs, colors=_OVERHEAD, linewidths=0.8, linestyles=(0, (6, 2, 1, 2)),
                                          zorder=3))
@@ -155,7 +154,7 @@ def draw_closeup(ax: Any, result: Any, sheet: Sheet,  # noqa: C901  (one drawing
     if isinstance(f.geometry, shapely.Geometry) and not f.geometry.is_empty:
         g = f.geometry
         polys = [p for p in parts(g) if isinstance(p, shapely.Polygon)]
-        p = _polygon_path(polys, shift)
+        p = polygon_path(polys, shift)
         if p is not None:
             add_polygon_patch(ax, PathPatch(p, facecolor=style.colour, alpha=0.18, edgecolor=style.colour,
                                             linewidth=0.6, zorder=5))
@@ -208,17 +207,17 @@ def _draw_pose(ax: Any, vehicle: Any, pose: Pose) -> None:
     if pose.envelope_m > 0:
         env = _placed(vehicle.outline.buffer(pose.envelope_m, join_style="mitre", mitre_limit=10.0),
                       pose.x, pose.y, pose.heading_deg)
-        p = _polygon_path([env], np.zeros(2))
+        p = polygon_path([env], np.zeros(2))
         if p is not None:
             add_polygon_patch(ax, PathPatch(p, facecolor="none", edgecolor=kind_style("tight").colour, linewidth=0.9,
                                             linestyle=(0, (4, 2)), zorder=10))
     fp = _placed(vehicle.footprint, pose.x, pose.y, pose.heading_deg)
     body = _placed(vehicle.outline, pose.x, pose.y, pose.heading_deg)
-    p = _polygon_path([fp], np.zeros(2))
+    p = polygon_path([fp], np.zeros(2))
     if p is not None:
         add_polygon_patch(ax, PathPatch(p, facecolor=_POSE_FACE, edgecolor=_POSE_EDGE, linewidth=0.6,
                                         linestyle=(0, (2, 1.5)), alpha=0.9, zorder=10))
-    p = _polygon_path([body], np.zeros(2))
+    p = polygon_path([body], np.zeros(2))
     if p is not None:
         add_polygon_patch(ax, PathPatch(p, facecolor="#a9c3dc", edgecolor=_POSE_EDGE, linewidth=1.0, alpha=0.85,
                                         zorder=11))

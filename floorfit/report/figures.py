@@ -89,8 +89,6 @@ class FigureImage:
 _parts = parts
 
 
-_polygon_path = polygon_path
-_line_segments = line_segments
 
 
 def _origin(plan: Any) -> np.ndarray:
@@ -183,11 +181,11 @@ def _clip_to_drawing(ax: Any, plan: Any, artist: Any) -> None:
 
 def _draw_obstacles(ax: Any, plan: Any, *, faint: bool = False) -> None:
     shift = _origin(plan)
-    path = _polygon_path(plan.solids, shift)
+    path = polygon_path(plan.solids, shift)
     if path is not None:
         add_polygon_patch(ax, PathPatch(path, facecolor="#c9c9c9" if faint else _SOLID,
                                         edgecolor=_WALL, linewidth=0.4, zorder=2))
-    segments = _line_segments(plan.walls, shift)
+    segments = line_segments(plan.walls, shift)
     if segments:
         ax.add_collection(LineCollection(segments, colors=_WALL, linewidths=0.5 if faint else 0.8,
                                          zorder=3, capstyle="round"))
@@ -234,12 +232,12 @@ def _draw_finding_geometry(ax: Any, result: Any) -> None:
         if f.geometry is None:
             continue
         style = kind_style(f.kind)
-        path = _polygon_path([f.geometry], shift)
+        path = polygon_path([f.geometry], shift)
         if path is not None:
             add_polygon_patch(ax, PathPatch(path, facecolor=style.colour, alpha=0.35, edgecolor=style.colour,
                                             linewidth=1.0, zorder=6))
         lines = [ln for part in _parts(f.geometry) if not isinstance(part, shapely.Polygon)
-                 for ln in _line_segments([part], shift)]
+                 for ln in line_segments([part], shift)]
         if lines:
             ax.add_collection(LineCollection(lines, colors=style.colour, linewidths=3.0, zorder=6,
                                              capstyle="round"))
@@ -327,7 +325,7 @@ def turnability_figure(result: Any) -> Figure | None:
     fig, ax = _new_plan_axes(box)
     shift = _origin(result.plan)
     for key, _text, colour in present:
-        path = _polygon_path([result.turnability[key]], shift)
+        path = polygon_path([result.turnability[key]], shift)
         if path is not None:
             patch = add_polygon_patch(ax, PathPatch(path, facecolor=colour, edgecolor="none", zorder=1))
             _clip_to_drawing(ax, result.plan, patch)
@@ -390,7 +388,7 @@ def routes_figure(result: Any, routes: list[dict]) -> Figure | None:
     outline = result.vehicle.outline
     for route in routes:
         swept = route.get("swept")
-        path = _polygon_path([swept], shift) if swept is not None else None
+        path = polygon_path([swept], shift) if swept is not None else None
         if path is not None:
             add_polygon_patch(ax, PathPatch(path, facecolor="#86bfdf", alpha=0.5, edgecolor="#27608f",
                                             linewidth=0.6, zorder=4))
@@ -428,11 +426,11 @@ def traffic_figure(result: Any) -> Figure | None:
     shift = _origin(result.plan)
     style = kind_style("single-lane")
     places, stretches = traffic.get("passing_places", []), traffic.get("stretches", [])
-    path = _polygon_path([p["geometry"] for p in places], shift)
+    path = polygon_path([p["geometry"] for p in places], shift)
     if path is not None:
         add_polygon_patch(ax, PathPatch(path, facecolor=_PASS_FILL, edgecolor=_PASS_EDGE, hatch="///", linewidth=0.7,
                                         zorder=4))
-    path = _polygon_path([s["geometry"] for s in stretches], shift)
+    path = polygon_path([s["geometry"] for s in stretches], shift)
     if path is not None:
         add_polygon_patch(ax, PathPatch(path, facecolor=style.colour, alpha=0.45, edgecolor=style.colour, linewidth=1.0,
                                         zorder=5))
@@ -461,11 +459,11 @@ def vehicle_figure(vehicle: Any) -> Figure:
     fig = Figure(figsize=(4.2, 3.2))
     ax = fig.add_subplot()
     shift = np.zeros(2)
-    foot = _polygon_path([vehicle.footprint], shift)
+    foot = polygon_path([vehicle.footprint], shift)
     if foot is not None:
         add_polygon_patch(ax, PathPatch(foot, facecolor="#f3cf94", edgecolor="#a8741a", linewidth=0.8,
                                         linestyle=(0, (4, 2)), label=f"with margin {vehicle.margin_m:g} m"))
-    body = _polygon_path([vehicle.outline], shift)
+    body = polygon_path([vehicle.outline], shift)
     if body is not None:
         add_polygon_patch(ax, PathPatch(body, facecolor="#27608f", alpha=0.85, edgecolor="#1b3d5c",
                                         linewidth=1.0, label="outline"))
