@@ -32,7 +32,7 @@ def _plan() -> Plan:
 
 
 def _summary(r):
-    return (r.passed, r.reachable, r.cuts, r.notes,
+    return (r.passed, r.reachable, r.cuts, r.notes, r.settings,
             [(f.id, f.kind, f.cause, f.direction_changes, round(f.x, 6), round(f.y, 6), f.summary) for f in r.findings],
             [(d.get("from"), d.get("to"), d.get("status")) for d in (r.routes or [])])
 
@@ -63,7 +63,7 @@ def test_check_with_drives_apart_equals_one_process(monkeypatch, case):
 
     monkeypatch.setattr(check_module, "start", watching_start)
     two = run_check(_plan(), vehicle, stations, site=site, heading_step_deg=3.0, workers=2)
-    assert started == [True]
+    assert started == [True, True]       # the clearance raster beside the roadmap, then the drives
     assert _summary(two) == _summary(one)
     kinds = {(f.kind, f.cause) for f in one.findings}
     if case.startswith("car"):

@@ -5,7 +5,8 @@ It runs named stages in order, each a function with typed inputs and outputs tha
 timed, reported in progress or skipped on its own:
 
 1. :func:`slice_stage`: heading cells, C-obstacles, sound slices and the roadmap (:mod:`floorfit.cspace`);
-2. :func:`clearance_stage`: the floor clearance raster people and vehicles are measured on;
+2. :func:`clearance_stage`: the floor clearance raster people and vehicles are measured on (on a large
+   site, on a second process while the roadmap is built: :func:`space_stages`);
 3. :func:`floorfit.analysis.places.find_places`: roadmap regions merged into places, and their joins;
 4. :func:`floorfit.analysis.blocked.station_fit_findings` and
    :func:`~floorfit.analysis.blocked.pinch_findings`: ``blocked`` findings, then the station pairs they cut;
@@ -46,7 +47,7 @@ from floorfit.plan.site import Site
 from floorfit.plan.stations import Station, validate_stations
 from floorfit.vehicles.rigid import Vehicle
 
-__all__ = ["run_check", "rank_findings", "slice_stage", "clearance_stage", "manoeuvre_stage",
+__all__ = ["run_check", "rank_findings", "slice_stage", "clearance_stage", "space_stages", "manoeuvre_stage",
            "MAP_MAX_CELLS", "PERSON_HEADROOM_M"]
 
 #: Headroom a person needs, metres: obstacles starting higher do not block people (common
@@ -60,8 +61,8 @@ def _noop(_msg: str) -> None:
     pass
 
 
-def slice_stage(ctx: CheckContext) -> SliceStage:
-    """Heading cells, C-obstacles, sound slices and their roadmap for the check's vehicle."""
+def _slices(ctx: CheckContext):
+    """Heading cells, C-obstacles and sound slices for the check's vehicle."""
     plan, vehicle = ctx.plan, ctx.vehicle
     cells = choose_headings(plan, vehicle, heading_step_deg=ctx.heading_step_deg, extra_headings=ctx.extra_headings)
     check_problem_size(plan, len(cells), slices_for_step=lambda step: len(choose_headings(
@@ -73,8 +74,32 @@ def slice_stage(ctx: CheckContext) -> SliceStage:
     # a progress object with an ``update(done, total)`` method also gets the count of slices done
     slices = build_slices(plan, vehicle, cells=cells, workers=ctx.workers, obstacles=obstacles,
                           progress=getattr(ctx.progress, "update", None))
+    return cells, obstacles, slices
+
+
+def slice_stage(ctx: CheckContext) -> SliceStage:
+    """Heading cells, C-obstacles, sound slices and their roadmap for the check's vehicle."""
+    cells, obstacles, slices = _slices(ctx)
     ctx.progress("roadmap")
     return SliceStage(cells=cells, obstacles=obstacles, slices=slices, roadmap=build_roadmap(slices))
+
+
+def _clearance_grid(ctx: CheckContext) -> tuple[tuple[float, float, float, float], float]:
+    """Bounds (local frame, metres) and cell size (metres) of the clearance raster: the drawing's
+    extent with :data:`_RASTER_PAD_M` around it, 5 cm cells, coarser on big sites."""
+    x0, y0, x1, y1 = ctx.plan.local_bounds()
+    pad = _RASTER_PAD_M
+    bounds = (x0 - pad, y0 - pad, x1 + pad, y1 + pad)
+    return bounds, choose_cell_size(bounds, 0.05)
+
+
+def _clearance_on(plan: Plan, site: Site, bounds: tuple[float, float, float, float], cell: float) -> ClearanceStage:
+    """The clearance raster over ``bounds`` with ``cell`` (metres) of the obstacles standing on the floor."""
+    pw = plan.wall_heights[:, 0] <= 0.0
+    ps = plan.solid_heights[:, 0] <= 0.0
+    field = clearance_field(plan.walls[pw], plan.solids[ps], bounds, cell)
+    floor = max(site.person_width_m / 2.0 - 0.75 * cell, cell)
+    return ClearanceStage(bounds=bounds, cell=cell, field=field, floor=floor)
 
 
 def clearance_stage(ctx: CheckContext) -> ClearanceStage:
@@ -84,17 +109,31 @@ def clearance_stage(ctx: CheckContext) -> ClearanceStage:
     leave the floor open: where they stop a vehicle, that is a ``blocked`` finding with cause
     ``height`` at the obstacle, not a separation of the drawing.
     """
-    plan = ctx.plan
-    x0, y0, x1, y1 = plan.local_bounds()
-    pad = _RASTER_PAD_M
-    bounds = (x0 - pad, y0 - pad, x1 + pad, y1 + pad)
-    cell = choose_cell_size(bounds, 0.05)
+    bounds, cell = _clearance_grid(ctx)
     ctx.progress(f"clearance field ({cell * 100:.0f} cm cells)")
-    pw = plan.wall_heights[:, 0] <= 0.0
-    ps = plan.solid_heights[:, 0] <= 0.0
-    field = clearance_field(plan.walls[pw], plan.solids[ps], bounds, cell)
-    floor = max(ctx.site.person_width_m / 2.0 - 0.75 * cell, cell)
-    return ClearanceStage(bounds=bounds, cell=cell, field=field, floor=floor)
+    return _clearance_on(ctx.plan, ctx.site, bounds, cell)
+
+
+def space_stages(ctx: CheckContext) -> tuple[SliceStage, ClearanceStage]:
+    """:func:`slice_stage` and :func:`clearance_stage`. The clearance raster needs only the drawing:
+    on a large site with more than one worker it is computed on a second process while this one
+    builds the roadmap (the same function, so the same raster)."""
+    cells, obstacles, slices = _slices(ctx)
+    bounds, cell = _clearance_grid(ctx)
+    apart = worker_count(ctx.workers) >= 2 and obstacles.piece_count * len(cells) >= DRIVES_APART_MIN_WORK
+    raster = start(_clearance_on, ctx.plan, ctx.site, bounds, cell, workers=ctx.workers if apart else 1)
+    try:
+        if raster.apart:
+            ctx.progress(f"roadmap; meanwhile the clearance field ({cell * 100:.0f} cm cells) on a second process")
+        else:
+            ctx.progress("roadmap")
+        roadmap = build_roadmap(slices)
+        if not raster.apart:
+            ctx.progress(f"clearance field ({cell * 100:.0f} cm cells)")
+        clear = raster.result()
+    finally:
+        raster.cancel()
+    return SliceStage(cells=cells, obstacles=obstacles, slices=slices, roadmap=roadmap), clear
 
 
 def manoeuvre_stage(ctx: CheckContext, cs: SliceStage, routes, reach: dict | None = None,
@@ -184,8 +223,7 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     validate_stations(plan, stations, site.path, inside_ok=stations_inside_ok)
     ctx = CheckContext.build(plan, vehicle, stations, site, progress or _noop, workers,
                              heading_step_deg if heading_step_deg is not None else site.heading_step_deg)
-    cs = slice_stage(ctx)
-    clear = clearance_stage(ctx)
+    cs, clear = space_stages(ctx)
     needed = min_width(vehicle.footprint)
     regions = station_regions(ctx, cs.slices, cs.roadmap)
     places = find_places(ctx, cs.slices, cs.roadmap, clear.field, clear.floor, regions=regions)

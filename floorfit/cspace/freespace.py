@@ -228,40 +228,125 @@ def _cascades(counts: np.ndarray, groups: np.ndarray | None) -> bool:
     return bool(len(groups)) and int(np.bincount(groups).max()) >= CASCADE_MIN_RINGS
 
 
+def _cluster_rings(ints: np.ndarray, coords: np.ndarray, counts: np.ndarray, groups: np.ndarray):
+    """Each cluster's rings: yields ``(cluster, unioned, rings)``, where a cluster of
+    :data:`CASCADE_MIN_RINGS` rings or more comes as the paths of its :func:`_cascade_union`
+    (``unioned`` True) and any other as its own rings."""
+    ends = np.cumsum(counts)
+    starts = ends - counts
+    order = np.argsort(groups, kind="stable")
+    centres = None
+    for cl, grp in enumerate(np.split(order, np.flatnonzero(np.diff(groups[order])) + 1)):
+        rings = [ints[starts[i]:ends[i]] for i in grp]
+        if len(grp) >= CASCADE_MIN_RINGS:
+            if centres is None:
+                centres = np.add.reduceat(coords, starts, axis=0) / counts[:, None]
+            rings = _cascade_union(rings, centres[grp])
+        yield cl, len(grp) >= CASCADE_MIN_RINGS, rings
+
+
+def _inside_box(ints: np.ndarray, region_paths: list[np.ndarray]) -> bool:
+    """True when ``region_paths`` is one axis-parallel rectangle holding every point of ``ints``
+    more than two grid steps inside its edges (a union's vertices stay within one step of its input's)."""
+    if len(region_paths) != 1 or len(region_paths[0]) != 4:
+        return False
+    box = region_paths[0]
+    xs, ys = np.unique(box[:, 0]), np.unique(box[:, 1])
+    if len(xs) != 2 or len(ys) != 2 or len({(int(x), int(y)) for x, y in box}) != 4:
+        return False
+    if not len(ints):
+        return True
+    lo, hi = ints.min(axis=0), ints.max(axis=0)
+    return bool(lo[0] > xs[0] + 2 and lo[1] > ys[0] + 2 and hi[0] < xs[1] - 2 and hi[1] < ys[1] - 2)
+
+
+def _nested_free(ints: np.ndarray, coords: np.ndarray, counts: np.ndarray, groups: np.ndarray,
+                 box: np.ndarray) -> list:
+    """Free polygons of a rectangle ``box`` (integer ring) minus the rings' union, without a final sweep.
+
+    Each cluster's union is taken as a tree of outer contours and holes (one strictly simple
+    sweep per cluster). Clusters are disjoint, so the free space is the rectangle with every
+    outermost contour as a hole, plus every hole of a union with the contours directly inside
+    it as its holes. Which hole directly holds a contour of another cluster is found by testing
+    one of its vertices (exact: contours of different clusters never touch); the innermost of
+    the holes holding it is the one of least area.
+    """
+    shells: list[np.ndarray] = []
+    parent: list[int] = []               # index into holes, or -1: directly in the rectangle
+    shell_cluster: list[int] = []
+    holes: list[np.ndarray] = []
+    hole_cluster: list[int] = []
+    for cl, unioned, rings in _cluster_rings(ints, coords, counts, groups):
+        if len(rings) == 1 and not unioned:
+            shells.append(rings[0])
+            parent.append(-1)
+            shell_cluster.append(cl)
+            continue
+        pc = pyclipper.Pyclipper()
+        pc.AddPaths(rings, pyclipper.PT_SUBJECT, True)
+        tree = pc.Execute2(pyclipper.CT_UNION, pyclipper.PFT_NONZERO, pyclipper.PFT_NONZERO)
+        stack = [(node, -1) for node in tree.Childs]
+        while stack:
+            node, up = stack.pop()
+            shells.append(np.asarray(node.Contour, dtype=np.int64))
+            parent.append(up)
+            shell_cluster.append(cl)
+            for h in node.Childs:
+                holes.append(np.asarray(h.Contour, dtype=np.int64))
+                hole_cluster.append(cl)
+                stack.extend((g, len(holes) - 1) for g in h.Childs)
+    up = np.asarray(parent, dtype=np.int64)
+    if holes and shells:
+        hole_polys = np.array([Polygon(h / CLIP_SCALE) for h in holes], dtype=object)
+        firsts = shapely.points(np.array([s[0] for s in shells], dtype=float) / CLIP_SCALE)
+        h_idx, s_idx = shapely.STRtree(firsts).query(hole_polys, predicate="contains")
+        other = np.asarray(hole_cluster)[h_idx] != np.asarray(shell_cluster)[s_idx]
+        h_idx, s_idx = h_idx[other], s_idx[other]
+        if len(s_idx):
+            # candidates: the hole a contour has in its own cluster's tree, and every hole of
+            # another cluster around it (they nest); the innermost has the least area
+            own = np.flatnonzero(up >= 0)
+            cand_s = np.r_[s_idx, own]
+            cand_h = np.r_[h_idx, up[own]]
+            order = np.lexsort((shapely.area(hole_polys)[cand_h], cand_s))
+            first = np.r_[True, np.diff(cand_s[order]) != 0]
+            up[cand_s[order][first]] = cand_h[order][first]
+    inner: list[list[np.ndarray]] = [[] for _ in holes]
+    top = []
+    for s, p in zip(shells, up.tolist()):
+        (inner[p] if p >= 0 else top).append(s / CLIP_SCALE)
+    return [Polygon(box / CLIP_SCALE, top)] + [Polygon(h / CLIP_SCALE, k) for h, k in zip(holes, inner)]
+
+
 def _clip_free(coords: np.ndarray, counts: np.ndarray, groups: np.ndarray | None, region) -> np.ndarray | None:
     """``region`` minus the union of the rings (non-zero winding) on the integer grid; None if clipping fails.
 
     Rings of one obstacle cluster (``groups``: a cluster label per ring) are unioned on
     their own: in one sweep (few active edges per scanline), or divide-and-conquer
-    (:func:`_cascade_union`) for a cluster of :data:`CASCADE_MIN_RINGS` rings or more. Then
-    all cluster unions, which are disjoint, are subtracted from the region in one last sweep.
+    (:func:`_cascade_union`) for a cluster of :data:`CASCADE_MIN_RINGS` rings or more. The
+    cluster unions are disjoint. When the region is a rectangle around all of them (a slice
+    domain), the free space is assembled from the unions' contours (:func:`_nested_free`);
+    otherwise (or if that gives an invalid polygon) all unions are subtracted from the region
+    in one last sweep. Both give the same point set on the grid.
     """
     ints = np.round(coords * CLIP_SCALE).astype(np.int64)
-    ends = np.cumsum(counts)
-    starts = ends - counts
-    if groups is None and len(counts) >= CASCADE_MIN_RINGS:
+    if groups is None:
         groups = np.zeros(len(counts), dtype=np.int64)
+    region_paths = _region_paths(region)
     try:
-        if groups is None or not len(counts):
-            paths = [ints[a:b] for a, b in zip(starts, ends)]
-        else:
-            order = np.argsort(groups, kind="stable")
-            paths = []
-            centres = None
-            for grp in np.split(order, np.flatnonzero(np.diff(groups[order])) + 1):
-                if len(grp) == 1:
-                    paths.append(ints[starts[grp[0]]:ends[grp[0]]])
-                elif len(grp) >= CASCADE_MIN_RINGS:
-                    if centres is None:
-                        centres = np.add.reduceat(coords, starts, axis=0) / counts[:, None]
-                    paths.extend(_cascade_union([ints[starts[i]:ends[i]] for i in grp], centres[grp]))
-                else:
-                    paths.extend(_union_sweep([ints[starts[i]:ends[i]] for i in grp]))
+        if len(counts) and _inside_box(ints, region_paths):
+            comps = free_components(np.asarray(_nested_free(ints, coords, counts, groups, region_paths[0]),
+                                               dtype=object))
+            if not len(comps) or np.all(shapely.is_valid(comps)):
+                return comps
+        paths = []
+        for _, unioned, rings in _cluster_rings(ints, coords, counts, groups):
+            paths.extend(rings if unioned or len(rings) == 1 else _union_sweep(rings))
         pc = pyclipper.Pyclipper()
         pc.StrictlySimple = True
         if paths:
             pc.AddPaths(paths, pyclipper.PT_CLIP, True)
-        pc.AddPaths(_region_paths(region), pyclipper.PT_SUBJECT, True)
+        pc.AddPaths(region_paths, pyclipper.PT_SUBJECT, True)
         tree = pc.Execute2(pyclipper.CT_DIFFERENCE, pyclipper.PFT_EVENODD, pyclipper.PFT_NONZERO)
     except pyclipper.ClipperException:
         return None
