@@ -60,8 +60,7 @@ def test_rectangle_domain_takes_the_assembly_and_agrees_with_the_sweep():
     assert not freespace._inside_box(ints, freespace._region_paths(box(0, 0, 27, 30)))
     assert not freespace._inside_box(ints, freespace._region_paths(box(0, 0, 30, 30).buffer(1, join_style=2)
                                                                    .difference(box(-2, -2, -0.5, -0.5))))
-    built = freespace.free_components(np.asarray(freespace._nested_free(ints, coords, counts, GROUPS, square[0]),
-                                                 dtype=object))
+    built = freespace.free_components(freespace._nested_free(ints, coords, counts, GROUPS, square[0]))
     holes = sorted(len(p.interiors) for p in built)
     # outside: the room and two solids; the room: its column and the closet; the closet: its column
     assert holes == [1, 2, 3]

@@ -261,11 +261,11 @@ def _inside_box(ints: np.ndarray, region_paths: list[np.ndarray]) -> bool:
 
 
 def _nested_free(ints: np.ndarray, coords: np.ndarray, counts: np.ndarray, groups: np.ndarray,
-                 box: np.ndarray) -> list:
+                 box: np.ndarray) -> np.ndarray:
     """Free polygons of a rectangle ``box`` (integer ring) minus the rings' union, without a final sweep.
 
-    Each cluster's union is taken as a tree of outer contours and holes (one strictly simple
-    sweep per cluster). Clusters are disjoint, so the free space is the rectangle with every
+    Each cluster's union is taken as a tree of outer contours and holes (one sweep per
+    cluster; a lone ring is its own contour). Clusters are disjoint, so the free space is the rectangle with every
     outermost contour as a hole, plus every hole of a union with the contours directly inside
     it as its holes. Which hole directly holds a contour of another cluster is found by testing
     one of its vertices (exact: contours of different clusters never touch); the innermost of
@@ -297,7 +297,7 @@ def _nested_free(ints: np.ndarray, coords: np.ndarray, counts: np.ndarray, group
                 stack.extend((g, len(holes) - 1) for g in h.Childs)
     up = np.asarray(parent, dtype=np.int64)
     if holes and shells:
-        hole_polys = np.array([Polygon(h / CLIP_SCALE) for h in holes], dtype=object)
+        hole_polys = _polygons_of([[h] for h in holes])
         firsts = shapely.points(np.array([s[0] for s in shells], dtype=float) / CLIP_SCALE)
         h_idx, s_idx = shapely.STRtree(firsts).query(hole_polys, predicate="contains")
         other = np.asarray(hole_cluster)[h_idx] != np.asarray(shell_cluster)[s_idx]
@@ -311,11 +311,20 @@ def _nested_free(ints: np.ndarray, coords: np.ndarray, counts: np.ndarray, group
             order = np.lexsort((shapely.area(hole_polys)[cand_h], cand_s))
             first = np.r_[True, np.diff(cand_s[order]) != 0]
             up[cand_s[order][first]] = cand_h[order][first]
-    inner: list[list[np.ndarray]] = [[] for _ in holes]
-    top = []
+    rings: list[list[np.ndarray]] = [[box]] + [[h] for h in holes]
     for s, p in zip(shells, up.tolist()):
-        (inner[p] if p >= 0 else top).append(s / CLIP_SCALE)
-    return [Polygon(box / CLIP_SCALE, top)] + [Polygon(h / CLIP_SCALE, k) for h, k in zip(holes, inner)]
+        rings[p + 1].append(s)
+    return _polygons_of(rings)
+
+
+def _polygons_of(rings: list[list[np.ndarray]]) -> np.ndarray:
+    """Polygons (metres) from integer rings (open, grid units): ``rings[i]`` is polygon i's shell, then its holes."""
+    flat = [r for poly in rings for r in poly]
+    coords = np.concatenate([part for r in flat for part in (r, r[:1])]) / CLIP_SCALE
+    ring_ends = np.cumsum([len(r) + 1 for r in flat])
+    poly_ends = np.cumsum([len(poly) for poly in rings])
+    return shapely.from_ragged_array(shapely.GeometryType.POLYGON, coords,
+                                     (np.r_[0, ring_ends], np.r_[0, poly_ends]))
 
 
 def _clip_free(coords: np.ndarray, counts: np.ndarray, groups: np.ndarray | None, region) -> np.ndarray | None:
@@ -335,8 +344,7 @@ def _clip_free(coords: np.ndarray, counts: np.ndarray, groups: np.ndarray | None
     region_paths = _region_paths(region)
     try:
         if len(counts) and _inside_box(ints, region_paths):
-            comps = free_components(np.asarray(_nested_free(ints, coords, counts, groups, region_paths[0]),
-                                               dtype=object))
+            comps = free_components(_nested_free(ints, coords, counts, groups, region_paths[0]))
             if not len(comps) or np.all(shapely.is_valid(comps)):
                 return comps
         paths = []
