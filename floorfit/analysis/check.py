@@ -247,7 +247,8 @@ def run_check(plan: Plan, vehicle: Vehicle, stations: list[Station], *, site: Si
     try:
         if drives.apart:
             ctx.progress(f"{_manoeuvre_words(ctx)} on a second process, meanwhile:")
-        findings += tight_findings(ctx, cs, clear, places, findings)
+        # with the drives on the second core, one process here: a pool would only share that core
+        findings += tight_findings(ctx, cs, clear, places, findings, workers=1 if drives.apart else None)
         n_tight = len(ctx.notes)
         if not drives.apart:
             manoeuvres, route_dicts = drives.result()[:2]

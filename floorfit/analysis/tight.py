@@ -55,8 +55,11 @@ def grown_step_deg(step_deg: float) -> float:
 
 
 def tight_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, places: Places,
-                   blocked: list[Finding]) -> list[Finding]:
-    """Tight findings for the site's required clearance (none when it is not above the margin)."""
+                   blocked: list[Finding], workers: int | None = None) -> list[Finding]:
+    """Tight findings for the site's required clearance (none when it is not above the margin).
+
+    ``workers``: processes for the grown vehicle's slices (default: the check's); the findings
+    do not depend on it."""
     site, vehicle, plan = ctx.site, ctx.vehicle, ctx.plan
     req = site.required_clearance_m
     if not (req > vehicle.margin_m + 1e-9 and ctx.stations):
@@ -68,7 +71,7 @@ def tight_findings(ctx: CheckContext, cs: SliceStage, clear: ClearanceStage, pla
     step = grown_step_deg(ctx.heading_step_deg or cs.cells.step_deg)
     gslices = build_slices(plan, grown, cells=choose_headings(plan, grown, heading_step_deg=step,
                                                                 extra_headings=ctx.extra_headings),
-                           workers=ctx.workers, obstacles=cs.obstacles)
+                           workers=ctx.workers if workers is None else workers, obstacles=cs.obstacles)
     gplaces = find_places(ctx, gslices, build_roadmap(gslices), clear.field, clear.floor)
     outline_w = min_width(vehicle.outline)
     findings = _tight_stations(ctx, cs, places, gplaces, outline_w, req)

@@ -5,7 +5,8 @@ components: the obstacle clusters (:func:`obstacle_clusters`, pieces of far-apar
 never overlap so each cluster is unioned on its own), the GEOS C-obstacle
 (:func:`slice_cobstacle`), the integer-grid clipping with pyclipper (grid scale
 :data:`CLIP_SCALE`, the guard growths :data:`CLIP_GUARD_M` and :data:`CASCADE_GUARD_M`, one
-Vatti sweep per cluster or the divide-and-conquer cascade for big clusters), the switch
+Vatti sweep per cluster or the divide-and-conquer cascade for big clusters, the free space
+assembled from the clusters' union trees), the switch
 between the two (:data:`UNION_BACKEND`), and the free components in canonical order with
 those under :data:`MIN_COMPONENT_AREA_M2` square metres dropped. Local frame, metres;
 headings in degrees. Slice sets, recipes and the process pool live in
@@ -14,6 +15,7 @@ headings in degrees. Slice sets, recipes and the process pool live in
 
 from __future__ import annotations
 
+import gc
 import math
 
 import numpy as np
@@ -130,14 +132,14 @@ def free_components(free) -> np.ndarray:
     return canonical_order(comps)
 
 
-#: How the slices' free space is computed: ``"clipper"`` (one Vatti sweep over all pieces on
-#: an integer grid, pyclipper) when available, else ``"geos"`` (shapely unions by cluster).
+#: How the slices' free space is computed: ``"clipper"`` (Vatti sweeps by cluster on an
+#: integer grid, pyclipper) when available, else ``"geos"`` (shapely unions by cluster).
 UNION_BACKEND = "clipper" if pyclipper is not None else "geos"
 #: Grid of the integer clipping: coordinates are multiples of 2**-40 m (about 0.9e-12 m).
 CLIP_SCALE = float(2 ** 40)
 #: The sound footprint is grown by this much more (metres): 4 grid steps, more than the
 #: snapping can move a boundary (input vertices ½ step per coordinate, intersection points
-#: ½ step in each of the two sweeps: at most 1.5·√2 steps), so a C-obstacle never shrinks
+#: ½ step in each of at most two sweeps: at most 1.5·√2 steps), so a C-obstacle never shrinks
 #: and poses that touch an obstacle are never inside the free space.
 CLIP_GUARD_M = 4.0 / CLIP_SCALE
 
@@ -231,13 +233,15 @@ def _cascades(counts: np.ndarray, groups: np.ndarray | None) -> bool:
 def _cluster_rings(ints: np.ndarray, coords: np.ndarray, counts: np.ndarray, groups: np.ndarray):
     """Each cluster's rings: yields ``(cluster, unioned, rings)``, where a cluster of
     :data:`CASCADE_MIN_RINGS` rings or more comes as the paths of its :func:`_cascade_union`
-    (``unioned`` True) and any other as its own rings."""
+    (``unioned`` True) and any other as its own rings: a lone ring as an (n, 2) array, rings
+    to be unioned as lists of [x, y] (pyclipper reads a list four times faster than an array)."""
     ends = np.cumsum(counts)
     starts = ends - counts
     order = np.argsort(groups, kind="stable")
     centres = None
+    listed = ints.tolist()
     for cl, grp in enumerate(np.split(order, np.flatnonzero(np.diff(groups[order])) + 1)):
-        rings = [ints[starts[i]:ends[i]] for i in grp]
+        rings = [ints[starts[grp[0]]:ends[grp[0]]]] if len(grp) == 1 else [listed[starts[i]:ends[i]] for i in grp]
         if len(grp) >= CASCADE_MIN_RINGS:
             if centres is None:
                 centres = np.add.reduceat(coords, starts, axis=0) / counts[:, None]
@@ -338,6 +342,20 @@ def _clip_free(coords: np.ndarray, counts: np.ndarray, groups: np.ndarray | None
     otherwise (or if that gives an invalid polygon) all unions are subtracted from the region
     in one last sweep. Both give the same point set on the grid.
     """
+    # some 10^4 short lists for pyclipper and its result trees: no collections while they are made
+    # (a collection would walk every object of the process; the trees' cycles are freed later)
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        return _clip_free_uncollected(coords, counts, groups, region)
+    finally:
+        if was:
+            gc.enable()
+
+
+def _clip_free_uncollected(coords: np.ndarray, counts: np.ndarray, groups: np.ndarray | None,
+                           region) -> np.ndarray | None:
+    """:func:`_clip_free` without the collector switched off."""
     ints = np.round(coords * CLIP_SCALE).astype(np.int64)
     if groups is None:
         groups = np.zeros(len(counts), dtype=np.int64)
@@ -407,8 +425,9 @@ def slice_free(obstacles: ObstacleSet, parts: list[Polygon], heading: float, gro
     """Free-space components of one slice inside ``region`` (a polygon, local frame, metres).
 
     Same arguments as :func:`slice_cobstacle`. With :data:`UNION_BACKEND` ``"clipper"`` the
-    C-obstacle pieces are subtracted from ``region`` in one integer sweep (results within
-    about 1e-12 m of the GEOS path, which is used when pyclipper is missing or fails).
+    C-obstacle pieces are unioned and subtracted from ``region`` on the integer grid
+    (:func:`_clip_free`; results within about 1e-12 m of the GEOS path, which is used when
+    pyclipper is missing or fails).
     """
     if UNION_BACKEND == "clipper":
         t = math.radians(heading)
