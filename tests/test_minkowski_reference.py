@@ -99,3 +99,26 @@ def test_convex_parts_cover_polygon_exactly():
         assert all(is_convex(p) for p in parts)
         assert sum(p.area for p in parts) == pytest.approx(s.area, rel=1e-9)
         assert shapely.union_all(parts).symmetric_difference(s).area < 1e-9
+
+
+@pytest.mark.parametrize("anchored", [True, False])
+def test_ring_owners_do_not_depend_on_heading_or_growth(anchored):
+    # the clipping decides a slice's growth from the ring owners before computing the rings:
+    # the owners cobstacle_owners gives must be the ones cobstacle_rings returns, for any parts
+    from floorfit.cspace.minkowski import cobstacle_owners, cobstacle_rings, footprint_parts_at
+
+    walls = [shapely.LineString([(0, 0), (5, 0)]), shapely.LineString([(5, 0), (5, 4)])]
+    solids = [box(1, 1, 2, 2), Polygon([(6, 1), (9, 1), (9, 3), (7, 3), (7, 5), (6, 5)]),
+              Polygon([(10, 0), (14, 0), (14, 4), (10, 4)], [[(11, 1), (13, 1), (13, 3), (11, 3)]])]
+    obs = prepare_obstacles(walls, solids)
+    # and non-convex solids taken whole (as for a polygon whose convex split loses area), one with a hole
+    import dataclasses
+    obs = dataclasses.replace(obs, nonconvex=np.asarray(solids[1:], dtype=object))
+    L = Polygon([(-0.4, -0.3), (0.6, -0.3), (0.6, 0.3), (0.1, 0.3), (0.1, 0.8), (-0.4, 0.8)])   # two convex parts
+    parts = convex_parts(L)
+    anchor = np.array([0.05, 0.1]) if anchored else None
+    for heading, grow in ((0.0, 0.0), (37.0, 0.02), (-120.0, 0.3)):
+        verts = footprint_parts_at(parts, heading, grow)
+        coords, counts, owner = cobstacle_rings(obs, verts, anchor)
+        assert np.array_equal(owner, cobstacle_owners(obs, len(verts), anchored))
+        assert len(owner) == len(counts) and counts.sum() == len(coords)

@@ -24,7 +24,13 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 from shapely.geometry import Polygon
 
-from floorfit.cspace.minkowski import ObstacleSet, cobstacle_pieces, cobstacle_rings, footprint_parts_at
+from floorfit.cspace.minkowski import (
+    ObstacleSet,
+    cobstacle_owners,
+    cobstacle_pieces,
+    cobstacle_rings,
+    footprint_parts_at,
+)
 
 try:                                   # integer polygon clipping (Vatti); the GEOS path is the fallback
     import pyclipper
@@ -223,10 +229,10 @@ def _cascade_union(paths: list, centres: np.ndarray) -> list:
     return level[0] if level else []
 
 
-def _cascades(counts: np.ndarray, groups: np.ndarray | None) -> bool:
-    """True when some cluster of rings is big enough for :func:`_cascade_union`."""
+def _cascades(n_rings: int, groups: np.ndarray | None) -> bool:
+    """True when some cluster of the ``n_rings`` rings is big enough for :func:`_cascade_union`."""
     if groups is None:
-        return len(counts) >= CASCADE_MIN_RINGS
+        return n_rings >= CASCADE_MIN_RINGS
     return bool(len(groups)) and int(np.bincount(groups).max()) >= CASCADE_MIN_RINGS
 
 
@@ -434,12 +440,12 @@ def slice_free(obstacles: ObstacleSet, parts: list[Polygon], heading: float, gro
         c, s = math.cos(t), math.sin(t)
         anchor = np.array([c * anchor_local[0] - s * anchor_local[1], s * anchor_local[0] + c * anchor_local[1]])
         verts = footprint_parts_at(parts, heading, grow if grow >= 0 else 0.0)
-        coords, counts, owner = cobstacle_rings(obstacles, verts, anchor)
+        owner = cobstacle_owners(obstacles, len(verts), True)
         groups = labels[owner] if labels is not None and len(labels) else None
-        if grow > 0 and _cascades(counts, groups):
+        if grow > 0 and _cascades(len(owner), groups):
             # a sound slice whose union runs in levels: grow by the rounding those levels may add
             verts = footprint_parts_at(parts, heading, grow + CASCADE_GUARD_M)
-            coords, counts, owner = cobstacle_rings(obstacles, verts, anchor)
+        coords, counts, owner = cobstacle_rings(obstacles, verts, anchor)
         comps = _clip_free(coords, counts, groups, region)
         if comps is not None:
             return comps

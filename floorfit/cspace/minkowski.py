@@ -38,7 +38,8 @@ from shapely.geometry import Polygon
 from floorfit.plan.dxf.cleanup import clean_segments, segments_of_lines
 
 __all__ = ["convex_parts", "is_convex", "minkowski_sum", "ObstacleSet", "ConvexGroup", "prepare_obstacles",
-           "cobstacle_pieces", "cobstacle_rings", "convex_sums", "convex_sum_polygons", "footprint_parts_at"]
+           "cobstacle_pieces", "cobstacle_rings", "cobstacle_owners", "convex_sums", "convex_sum_polygons",
+           "footprint_parts_at"]
 
 _CONVEX_REL_TOL = 1e-9
 _BUCKETS = (2, 3, 4, 6, 8, 12, 16, 24, 32, 48, 64, 96, 128, 256, 512, 1024)
@@ -527,24 +528,18 @@ def cobstacle_rings(obstacles: ObstacleSet, part_vertices: list[np.ndarray],
     is the index of the obstacle piece a ring comes from (the convex groups in order, then
     the non-convex solids), as used by :func:`floorfit.cspace.freespace.obstacle_clusters`.
     """
-    coords, counts, owner = [], [], []
-    start = 0
-    offsets = []
-    for G in obstacles.convex_groups:
-        offsets.append(start)
-        start += len(G)
+    coords, counts = [], []
     for P in part_vertices:
         neg = -np.asarray(P, dtype=float)
-        for G, off in zip(obstacles.convex_groups, offsets):
+        for G in obstacles.convex_groups:
             V, keep = _sum_vertices(G, neg)
             coords.append(V[keep])
             counts.append(keep.sum(axis=1))
-            owner.append(off + np.arange(len(G)))
     if len(obstacles.nonconvex):
         anchors = [np.asarray(anchor, dtype=float)] if anchor is not None else []
         anchors += [np.asarray(P, dtype=float)[0] for P in part_vertices]
         oriented = shapely.orient_polygons(obstacles.nonconvex, exterior_cw=False)
-        rings, ring_of = shapely.get_rings(oriented, return_index=True)
+        rings = shapely.get_rings(oriented)
         xy, idx = shapely.get_coordinates(rings, return_index=True)
         last = np.r_[idx[1:] != idx[:-1], True]           # the closing vertex of each ring
         xy, idx = xy[~last], idx[~last]
@@ -552,10 +547,21 @@ def cobstacle_rings(obstacles: ObstacleSet, part_vertices: list[np.ndarray],
         for f0 in anchors:
             coords.append(xy - f0)
             counts.append(n)
-            owner.append(start + ring_of)
     if not coords:
         return np.zeros((0, 2)), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    return np.concatenate(coords), np.concatenate(counts).astype(np.int64), np.concatenate(owner).astype(np.int64)
+    return (np.concatenate(coords), np.concatenate(counts).astype(np.int64),
+            cobstacle_owners(obstacles, len(part_vertices), anchor is not None))
+
+
+def cobstacle_owners(obstacles: ObstacleSet, n_parts: int, anchored: bool) -> np.ndarray:
+    """The ``owner`` array :func:`cobstacle_rings` returns for ``n_parts`` footprint parts (``anchored``:
+    an anchor was given): the obstacle piece of every ring, which depends on neither heading nor growth."""
+    start = sum(len(G) for G in obstacles.convex_groups)
+    owner = [np.arange(start)] * n_parts if start else []
+    if len(obstacles.nonconvex):
+        _, ring_of = shapely.get_rings(np.asarray(obstacles.nonconvex, dtype=object), return_index=True)
+        owner += [start + ring_of] * (n_parts + (1 if anchored else 0))
+    return np.concatenate(owner).astype(np.int64) if owner else np.zeros(0, dtype=np.int64)
 
 
 def minkowski_sum(a, b):
