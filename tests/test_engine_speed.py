@@ -155,6 +155,29 @@ def test_two_workers_give_the_same_slices_as_one(rooms, cells, monkeypatch):
         assert list(shapely.to_wkb(a)) == list(shapely.to_wkb(b))        # identical, not merely close
 
 
+@pytest.mark.parametrize("name, outline", [("axle", OFFSET), ("centred, with twins", CENTRED)])
+def test_roadmap_split_over_two_processes_is_the_same_graph(rooms, cells, monkeypatch, name, outline):
+    from floorfit.cspace import roadmap as roadmap_module
+    from floorfit.forking import Pending
+
+    slices = build_slices(rooms, vehicle_from_outline(outline, name=name), cells=cells)
+    one = build_roadmap(slices, workers=1)
+    monkeypatch.setattr(roadmap_module, "SPLIT_MIN_VERTICES", 0)
+    forked = []
+    real_init = Pending.__init__
+
+    def watching(self, *a, **kw):
+        real_init(self, *a, **kw)
+        forked.append(self.apart)
+
+    monkeypatch.setattr(Pending, "__init__", watching)
+    two = build_roadmap(slices, workers=2)
+    assert forked == [True] and one.number_of_edges() > len(cells)
+    # the same nodes and edges, with the same attributes, added in the same order
+    assert list(one.nodes(data=True)) == list(two.nodes(data=True))
+    assert list(one.edges(data=True)) == list(two.edges(data=True))
+
+
 def test_worker_count_defaults_to_every_core():
     assert slicepool.worker_count(3) == 3
     assert slicepool.worker_count(None) == slicepool.worker_count(0) >= 1

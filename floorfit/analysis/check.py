@@ -127,7 +127,7 @@ def space_stages(ctx: CheckContext) -> tuple[SliceStage, ClearanceStage]:
             ctx.progress(f"roadmap; meanwhile the clearance field ({cell * 100:.0f} cm cells) on a second process")
         else:
             ctx.progress("roadmap")
-        roadmap = build_roadmap(slices)
+        roadmap = build_roadmap(slices, workers=ctx.workers if apart else 1)
         if not raster.apart:
             ctx.progress(f"clearance field ({cell * 100:.0f} cm cells)")
         clear = raster.result()

@@ -21,6 +21,7 @@ from shapely.geometry import Point
 
 from floorfit.cspace.headings import arc_deg
 from floorfit.cspace.slices import SliceSet
+from floorfit.forking import start
 
 __all__ = ["build_roadmap", "MIN_ZONE_AREA_M2", "reachable_cells", "rotation_zone", "station_nodes"]
 
@@ -28,7 +29,7 @@ __all__ = ["build_roadmap", "MIN_ZONE_AREA_M2", "reachable_cells", "rotation_zon
 MIN_ZONE_AREA_M2 = 1e-8
 
 
-def build_roadmap(slices: SliceSet) -> nx.Graph:
+def build_roadmap(slices: SliceSet, workers: int | None = 1) -> nx.Graph:
     """Build the roadmap graph of ``slices``.
 
     Node attributes: ``heading_deg``, ``area_m2``. Edge attributes: ``turn_deg`` (signed
@@ -37,6 +38,10 @@ def build_roadmap(slices: SliceSet) -> nx.Graph:
     than :data:`MIN_ZONE_AREA_M2` of area; the overlap itself (the rotation zone) is made on
     demand by :func:`rotation_zone`, near where a route needs it. Graph attributes: ``units``,
     ``heading_step_deg``, ``tolerance_m``, ``bound``, ``headings``.
+
+    ``workers``: with 2 or more (None: the usable cores) and slices of at least
+    :data:`SPLIT_MIN_VERTICES` vertices in all, the first half of the neighbouring slice pairs
+    is overlapped in a forked second process (:mod:`floorfit.forking`); the graph is the same.
     """
     G = nx.Graph(units={"length": "m", "heading": "deg"}, heading_step_deg=slices.cells.step_deg,
                  tolerance_m=slices.tolerance_m, bound=slices.bound, headings=len(slices))
@@ -49,28 +54,56 @@ def build_roadmap(slices: SliceSet) -> nx.Graph:
     if n < 2:
         return G
     rho = slices.vehicle.radius_m
-    pairs = range(n) if n > 2 else range(1)
     twins = slices.twins
-    probes = _Probes(slices)
-    done: dict[tuple[int, int], tuple] = {}
-    for k in pairs:
+    # neighbouring slices with free space; slices sharing their free space with twins (half-turn
+    # symmetric footprints) have the overlaps of the twin pair
+    pairs = []
+    for k in (range(n) if n > 2 else range(1)):
         k2 = (k + 1) % n
-        a, b = slices.components[k], slices.components[k2]
-        if not len(a) or not len(b):
-            continue
-        # slices sharing their free space with twins (half-turn symmetric footprints): the
-        # overlaps of the twin pair are the same
-        key = (int(twins[k]), int(twins[k2])) if twins is not None else (k, k2)
-        if key not in done:
-            done[key] = _overlapping(probes, k, k2)
+        if len(slices.components[k]) and len(slices.components[k2]):
+            pairs.append((k, k2, (int(twins[k]), int(twins[k2])) if twins is not None else (k, k2)))
+    first_of: dict = {}
+    for k, k2, key in pairs:
+        first_of.setdefault(key, (k, k2))
+    todo = list(first_of.items())
+    split = len(todo) // 2 if _split_worth_it(slices, workers) else 0
+    apart = start(_overlaps, slices, todo[:split], workers=workers if split else 1)
+    try:
+        done = _overlaps(slices, todo[split:])
+        done.update(apart.result())
+    finally:
+        apart.cancel()
+    for k, k2, key in pairs:
         ia, ib = done[key]
-        probes.forget(k)                          # slice k is done with (slice 0 is probed again last)
         turn = float(arc_deg(slices.cells.headings[k], slices.cells.headings[k2]))
         w = rho * math.radians(abs(turn)) + 1e-6
         for i, j in zip(ia, ib):
             u, v = (k, int(i)), (k2, int(j))
             G.add_edge(u, v, turn_deg=turn if u < v else -turn, weight=w)
     return G
+
+
+#: Slice sets with at least this many vertices in all have their overlaps computed on two
+#: processes when allowed (below it, forking costs more than it saves).
+SPLIT_MIN_VERTICES = 1_000_000
+
+
+def _split_worth_it(slices: SliceSet, workers: int | None) -> bool:
+    if workers is not None and int(workers) < 2:
+        return False
+    total = sum(int(shapely.get_num_coordinates(c).sum()) for c in slices.components if len(c))
+    return total >= SPLIT_MIN_VERTICES
+
+
+def _overlaps(slices: SliceSet, todo: list) -> dict:
+    """``{key: (ia, ib)}``: :func:`_overlapping` of each ``(key, (k, k2))`` in ``todo``, in order."""
+    probes = _Probes(slices)
+    done = {}
+    for key, (k, k2) in todo:
+        done[key] = _overlapping(probes, k, k2)
+        probes.forget(k)                          # slice k is done with
+    probes.forget_all()
+    return done
 
 
 #: Radius (m) of the probe octagon, which must lie inside both components: its area,
@@ -106,6 +139,10 @@ class _Probes:
         mine = self._prepared.pop(k, None)
         if mine is not None:
             shapely.destroy_prepared(mine)
+
+    def forget_all(self) -> None:
+        for k in list(self._prepared):
+            self.forget(k)
 
     def inside_both(self, octs, k: int, i, k2: int, j) -> np.ndarray:
         """Whether each octagon lies inside component i of slice k and component j of slice k2."""
