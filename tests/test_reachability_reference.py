@@ -52,19 +52,28 @@ def _route_corner(a, b, w, length, step=None):
 
 @pytest.mark.parametrize("a, b, w", [(1.0, 1.0, 0.2), (1.5, 2.0, 0.6), (1.0, 1.0, 0.1)])
 def test_rectangle_around_corner_both_sides_of_closed_form(a, b, w):
+    from floorfit.cspace.slices import default_step
+
     Lstar = moretti_length(a, b, w)
-    plan, veh, r = _route_corner(a, b, w, Lstar - 0.2)
+    step = default_step(corner_plan(a, b), ff.rectangle_vehicle(Lstar, w))
+    # at the default step everywhere (an explicit step: no coarse try)
+    plan, veh, r = _route_corner(a, b, w, Lstar - 0.2, step)
     # margin tied to the stated tolerance: the sound bound grows the vehicle by ≤ tolerance_m,
     # which shortens the admissible length by at most ~6 × tolerance at a 45° pinch
     assert 6 * r.tolerance_m < 0.2
     assert r.status == "reachable", r.notes
     assert_path_clear(plan, veh, r.path)
     assert np.allclose(r.path[0], (-4.0, a / 2, 0.0)) and np.allclose(r.path[-1], (b / 2, a + 4.0, 90.0))
-    plan, veh, r = _route_corner(a, b, w, Lstar + 0.2)
+    # the default query (coarse slices first, then refined near the pinch) answers the same, with a clear path
+    _, _, q = _route_corner(a, b, w, Lstar - 0.2)
+    assert q.status == "reachable", q.notes
+    assert_path_clear(plan, veh, q.path)
+    plan, veh, r = _route_corner(a, b, w, Lstar + 0.2, step)
     assert 6 * r.tolerance_m < 0.2
     assert r.status == "unreachable"
     # where it got stuck: in the horizontal arm, short of the corner
     assert r.stuck is not None and r.stuck["distance_to_goal_m"] > 1.0
+    assert _route_corner(a, b, w, Lstar + 0.2)[2].status == "unreachable"
 
 
 def test_ada_clear_floor_space_cannot_turn_between_36in_passages():

@@ -1,4 +1,6 @@
-"""The coarse first try of a route: coarse sound slices settle what they can, the default step the rest.
+"""The coarse first try of a route: coarse sound slices settle what they can, then the coarse
+optimistic slices (unreachable) or slices refined near the pinch points (reachable), the default
+step the rest.
 
 The corridor corner and the longest rectangle that turns it come from C. Moretti, "Moving a
 couch around a corner", College Math. J. 33(3), 2002 (the closed form in
@@ -46,23 +48,33 @@ def test_an_easy_route_is_settled_on_the_coarse_slices():
 
 
 @pytest.mark.parametrize("shorter_by", [0.1, 0.2])
-def test_a_tight_corner_the_coarse_slices_miss_is_decided_at_the_default_step(shorter_by):
+def test_a_tight_corner_the_coarse_slices_miss_is_passed_on_slices_refined_near_it(shorter_by):
     plan, vehicle = _corner(shorter_by)
+    step = default_step(plan, vehicle)
     coarse = build_slices(plan, vehicle, cells=coarse_cells(plan, vehicle, (START[2], GOAL[2])))
     # precondition: the coarse sound slices, conservative by a wider heading cell, see no route
     assert find_route(plan, vehicle, START, GOAL, slices=coarse, check_optimistic=False).status == "unreachable"
     r = find_route(plan, vehicle, START, GOAL)
     assert r.status == "reachable"
-    assert r.settings["heading_step_deg"] == pytest.approx(default_step(plan, vehicle))
-    assert not any("coarse" in n for n in r.notes)
+    # refined to the default step near the pinch only: fewer slices than the default step everywhere,
+    # stated with the coarse step and its (larger) tolerance
+    assert any(f"refined to {step:g}°" in n and "pinch points" in n for n in r.notes)
+    assert r.settings["headings"] < len(choose_headings(plan, vehicle, extra_headings=(START[2], GOAL[2])))
+    assert r.tolerance_m == pytest.approx(coarse.tolerance_m)
     assert_path_clear(plan, vehicle, r.path)
+    # the same answer at the default step everywhere, asked for explicitly
+    assert find_route(plan, vehicle, START, GOAL, heading_step_deg=step).status == "reachable"
 
 
 def test_a_route_too_long_for_the_corner_stays_unreachable():
     plan, vehicle = _corner(-0.2)        # 0.2 m longer than the closed form allows
     r = find_route(plan, vehicle, START, GOAL)
     assert r.status == "unreachable"
-    assert r.settings["heading_step_deg"] == pytest.approx(default_step(plan, vehicle))
+    # settled on the coarse bounds: even the vehicle shrunk by the coarse tolerance does not turn it
+    assert r.settings["heading_step_deg"] == pytest.approx(COARSE_FACTOR * default_step(plan, vehicle))
+    assert any("not even the vehicle shrunk" in n for n in r.notes)
+    fine = find_route(plan, vehicle, START, GOAL, heading_step_deg=default_step(plan, vehicle))
+    assert fine.status == "unreachable"
 
 
 def test_an_explicit_step_skips_the_coarse_try():

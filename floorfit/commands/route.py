@@ -83,6 +83,7 @@ def run(args) -> int:
     from floorfit.cspace.sizelimits import check_problem_size
     from floorfit.cspace.slicepool import pool_size
     from floorfit.cspace.slices import build_slices, cached_share, choose_headings, obstacles_for
+    from floorfit.motion.coarse_route import settle_coarse
     from floorfit.motion.route_query import (
         COARSE_FINAL,
         NOT_FOUND_WITHIN_LIMITS,
@@ -153,6 +154,11 @@ def run(args) -> int:
         window = None
         if result.status in COARSE_FINAL:
             result.notes.append(coarse_note(slices))
+        elif result.status == "unreachable":
+            # the coarse optimistic slices may settle it, or a refinement at the pinch points
+            settled = settle_coarse(plan, vehicle, start, goal, slices, result, search=find_route,
+                                    workers=args.workers, limits=limits, progress=progress.stage)
+            result, slices = settled if settled is not None else (None, slices)
         else:
             result = None          # the default step decides
     if result is None:

@@ -18,7 +18,7 @@ from floorfit.plan.directions import dominant_directions_deg
 
 __all__ = ["wrap_deg", "arc_deg", "interpolate_heading", "default_step_deg", "rotation_displacement_m",
            "dominant_directions_deg", "HeadingCells", "make_heading_cells", "STEP_CHOICES_DEG",
-           "TARGET_ROTATION_ERROR_M", "GUARD_DEG"]
+           "TARGET_ROTATION_ERROR_M", "GUARD_DEG", "refine_cells"]
 
 #: Candidate uniform steps, degrees (each divides 360).
 STEP_CHOICES_DEG = (5.0, 4.0, 3.0, 2.5, 2.0, 1.5, 1.25, 1.0)
@@ -152,3 +152,29 @@ def make_heading_cells(step_deg: float, extra_deg=(), *, only=None, guard_deg: f
     gaps_next = np.diff(np.concatenate([hs, [hs[0] + 360.0]]))      # to next slice
     gaps_prev = np.roll(gaps_next, 1)
     return HeadingCells(hs, gaps_prev / 2.0, gaps_next / 2.0, float(step_deg))
+
+
+def refine_cells(cells: HeadingCells, step_deg: float, around_deg, half_width_deg: float) -> HeadingCells:
+    """``cells`` with headings added every ``step_deg`` within ``half_width_deg`` of each of ``around_deg``.
+
+    The added headings lie on the uniform grid of ``step_deg`` from −180° (the grid of
+    :func:`make_heading_cells`), so refinements agree wherever they overlap. Every heading
+    of ``cells`` is kept, so its slices can be reused where their cells did not narrow. Cells
+    are the arcs nearest each heading, as in :func:`make_heading_cells`; ``step_deg`` of the
+    result stays that of ``cells`` (the coarsest step in the set). Degrees throughout.
+    """
+    if not (0 < step_deg <= 90):
+        raise ValueError("heading step must be in (0, 90] degrees")
+    n = int(round(360.0 / step_deg))
+    grid = -180.0 + np.arange(n) * (360.0 / n)
+    around = np.asarray(list(around_deg), dtype=float).reshape(-1)
+    if not len(around) or len(cells) < 2:
+        return cells
+    near = np.min(np.abs(arc_deg(grid[:, None], around[None, :])), axis=1) <= half_width_deg + 1e-9
+    hs = np.sort(np.round(wrap_deg(np.concatenate([cells.headings, grid[near]])), 9))
+    keep = np.concatenate([[True], np.diff(hs) > MERGE_DEG])
+    hs = hs[keep]
+    if len(hs) > 1 and (hs[0] + 360.0 - hs[-1]) <= MERGE_DEG:
+        hs = hs[:-1]
+    gaps_next = np.diff(np.concatenate([hs, [hs[0] + 360.0]]))
+    return HeadingCells(hs, np.roll(gaps_next, 1) / 2.0, gaps_next / 2.0, float(cells.step_deg))

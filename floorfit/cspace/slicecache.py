@@ -27,7 +27,7 @@ from pathlib import Path
 import numpy as np
 import shapely
 
-__all__ = ["SliceCache", "use_cache", "active_cache_dir", "default_cache_dir", "CACHE_ENV"]
+__all__ = ["SliceCache", "job_digest", "use_cache", "active_cache_dir", "default_cache_dir", "CACHE_ENV"]
 
 #: Environment variable: a folder for the cache, or ``off`` to turn it off.
 CACHE_ENV = "FLOORFIT_CACHE"
@@ -74,6 +74,17 @@ def _array_bytes(h, a) -> None:
     h.update(a.tobytes())
 
 
+def job_digest(job) -> str:
+    """A hex digest of one slice's job (footprint parts, heading, growth, anchor), exactly."""
+    parts, heading, grow, anchor = job
+    h = hashlib.sha256()
+    for p in parts:
+        h.update(shapely.to_wkb(p))
+    _array_bytes(h, np.array([heading, grow], dtype=float))
+    _array_bytes(h, np.asarray(anchor, dtype=float))
+    return h.hexdigest()[:40]
+
+
 class SliceCache:
     """Slices of one obstacle set, domain and clustering, stored in ``folder`` (see the module docstring)."""
 
@@ -93,13 +104,7 @@ class SliceCache:
         self.stored = 0
 
     def _path(self, job) -> Path:
-        parts, heading, grow, anchor = job
-        h = hashlib.sha256()
-        for p in parts:
-            h.update(shapely.to_wkb(p))
-        _array_bytes(h, np.array([heading, grow], dtype=float))
-        _array_bytes(h, np.asarray(anchor, dtype=float))
-        return self.folder / f"{h.hexdigest()[:40]}.wkb"
+        return self.folder / f"{job_digest(job)}.wkb"
 
     def has(self, job) -> bool:
         """True when a slice for ``job`` is stored."""

@@ -225,6 +225,8 @@ class SliceSet:
     workers_used: int = field(default=1, repr=False, compare=False)
     #: Slices read from the disk cache instead of built (:mod:`floorfit.cspace.slicecache`).
     reused: int = field(default=0, repr=False, compare=False)
+    #: Slices taken from the ``reuse`` slice set given to :func:`build_slices` instead of built.
+    kept: int = field(default=0, repr=False, compare=False)
     _trees: list = field(default_factory=list, repr=False)
 
     @property
@@ -433,7 +435,8 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
                  extra_headings=(), bound: str = "sound", workers: int | None = 1,
                  cells: HeadingCells | None = None, obstacles: ObstacleSet | None = None,
                  progress: Callable[[int, int], None] | None = None,
-                 window: tuple[float, float, float, float] | None = None) -> SliceSet:
+                 window: tuple[float, float, float, float] | None = None,
+                 reuse: SliceSet | None = None) -> SliceSet:
     """Build the free configuration space of ``vehicle`` in ``plan``, one slice per heading cell.
 
     Parameters
@@ -456,6 +459,11 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
         domain is cut to it). Inside, it is the free space of the whole plan (only obstacles
         within the footprint's reach of the window are used); a path in it is a path in the
         plan, but a region cut by the window edge may continue outside it.
+    reuse : SliceSet, optional
+        Slices built before for the same plan, vehicle and bound (whole plan): a slice whose
+        job (footprint parts, heading, growth, anchor) is exactly one of theirs takes its free
+        space from there instead of being computed again (a refined heading set keeps most of
+        a coarse one's slices).
     """
     if bound not in BOUNDS:
         raise ValueError(f"bound must be one of {BOUNDS}")
@@ -484,6 +492,7 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
             hit = cache.get(job)
             if hit is not None:
                 done[k] = hit
+    kept = _take_known(done, own, jobs, reuse) if _reusable(reuse, plan, vehicle, bound, window, domain) else 0
     todo = [(k, job) for k, job in zip(own.tolist(), jobs) if k not in done]
     if len(todo) < len(jobs):           # some came from the cache: the pool is sized for the rest
         processes = pool_size(obstacles, len(todo), workers)
@@ -498,10 +507,42 @@ def build_slices(plan: Plan, vehicle: Vehicle, *, heading_step_deg: float | None
                       grow_m=grow if bound == "sound" else -grow, bound=bound,
                       tolerance_m=recipe.tolerance, domain=domain, twins=twin,
                       workers_used=min(processes, max(1, len(todo))) if todo else 0,
-                      reused=len(jobs) - len(todo))
+                      reused=len(jobs) - len(todo) - kept, kept=kept)
     if memo is not None:
         memo.put(result, window)
     return result
+
+
+def _reusable(reuse: SliceSet | None, plan: Plan, vehicle: Vehicle, bound: str, window, domain) -> bool:
+    """Whether ``reuse`` holds whole-plan slices of this plan, vehicle and bound (same domain)."""
+    return (reuse is not None and window is None and reuse.plan is plan and reuse.bound == bound
+            and (reuse.vehicle is vehicle or reuse.vehicle == vehicle) and reuse.domain.equals_exact(domain, 0.0))
+
+
+def _take_known(done: dict, own: np.ndarray, jobs: list, reuse: SliceSet) -> int:
+    """Put into ``done`` (slice index: components) every job of ``jobs`` not there yet that ``reuse``
+    computed exactly; the number taken."""
+    from floorfit.cspace.slicecache import job_digest
+
+    known = _known_jobs(reuse)
+    taken = 0
+    for k, job in zip(own.tolist(), jobs):
+        if k not in done:
+            hit = known.get(job_digest(job))
+            if hit is not None:
+                done[k] = hit.copy()
+                taken += 1
+    return taken
+
+
+def _known_jobs(slices: SliceSet) -> dict:
+    """``{job digest: free-space components}`` of the slices ``slices`` computed (twins shared)."""
+    from floorfit.cspace.slicecache import job_digest
+
+    recipe = slice_recipe(slices.plan, slices.vehicle, slices.cells, slices.bound)
+    twins = slices.twins if slices.twins is not None else np.arange(len(slices.cells))
+    own, jobs = shared_jobs(recipe.jobs, twins)
+    return {job_digest(job): slices.components[k] for k, job in zip(own.tolist(), jobs)}
 
 
 def _window_obstacles(plan: Plan, vehicle: Vehicle, window, recipe: SliceRecipe) -> tuple[ObstacleSet, Polygon]:

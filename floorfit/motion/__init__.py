@@ -16,7 +16,9 @@ Modules: :mod:`~floorfit.motion.segments` (path pieces), :mod:`~floorfit.motion.
 differential or car-like base can drive; the car search in :mod:`~floorfit.motion.drivable_car`,
 the collision checks against the slices in :mod:`~floorfit.motion.slice_checks`) and
 :mod:`~floorfit.motion.route_query` (route queries between two poses: the ``floorfit route`` answer; the
-holonomic path through the roadmap's cells in :mod:`~floorfit.motion.cell_route`).
+holonomic path through the roadmap's cells in :mod:`~floorfit.motion.cell_route`; a coarse try settled by
+the coarse optimistic bound or by refining the heading step at its pinch points in
+:mod:`~floorfit.motion.coarse_route` and :mod:`~floorfit.motion.pinches`).
 
 Stage 4 of the pipeline. May import: :mod:`floorfit.cspace`, :mod:`floorfit.vehicles`,
 :mod:`floorfit.plan`, :mod:`floorfit.errors`.

@@ -35,6 +35,7 @@ from floorfit.cspace.roadmap import build_roadmap
 from floorfit.cspace.slices import SliceSet, build_slices, choose_headings, default_step
 from floorfit.errors import InputError
 from floorfit.motion.cell_route import route_in_slices
+from floorfit.motion.coarse_route import settle_coarse
 from floorfit.motion.drivable import (
     NOT_FOUND,
     DriveLimits,
@@ -43,6 +44,7 @@ from floorfit.motion.drivable import (
     segment_dicts,
 )
 from floorfit.motion.drivable_car import car_copy, plan_car
+from floorfit.motion.pinches import COARSE_FINAL
 from floorfit.motion.slice_checks import ExactSliceCheck, chord_error_m
 from floorfit.plan.model import Plan
 from floorfit.vehicles.rigid import Vehicle
@@ -174,6 +176,11 @@ def find_route(plan: Plan, vehicle: Vehicle, start, goal, *, heading_step_deg: f
             if found.status in COARSE_FINAL:
                 found.notes.append(coarse_note(first))
                 return found
+            if found.status == "unreachable":
+                settled = settle_coarse(plan, vehicle, start, goal, first, found, search=find_route, workers=workers,
+                                        limits=limits)
+                if settled is not None:
+                    return settled[0]
     if slices is None:
         cells = choose_headings(plan, vehicle, heading_step_deg=heading_step_deg, extra_headings=(sh, gh))
         slices = build_slices(plan, vehicle, cells=cells, workers=workers)
@@ -229,8 +236,6 @@ def find_route(plan: Plan, vehicle: Vehicle, start, goal, *, heading_step_deg: f
 COARSE_FACTOR = 4.0
 #: ... but no more than this, degrees (and none when the default step is already this coarse).
 COARSE_MAX_STEP_DEG = 8.0
-#: Answers the coarse slices settle: a route on sound slices holds at every finer step.
-COARSE_FINAL = ("reachable", "start-blocked", "goal-blocked")
 
 
 def coarse_cells(plan: Plan, vehicle: Vehicle, extra_headings=()):
