@@ -23,6 +23,7 @@ import numpy as np
 import shapely
 from shapely.geometry import Polygon
 
+from floorfit.cspace.headings import format_heading_ranges
 from floorfit.cspace.minkowski import ObstacleSet, cobstacle_pieces
 from floorfit.cspace.raster import fill_polygons
 from floorfit.cspace.slices import SliceSet
@@ -126,6 +127,3 @@ def heading_ranges(free_headings: np.ndarray, headings_deg: np.ndarray, below: n
     return ranges
 
 
-def format_heading_ranges(ranges) -> str:
-    """``"-99.5° to -81.5°, 90° (aligned only)"``: heading ranges in words (a single heading when from = to)."""
-    return ", ".join(f"{a:g}° (aligned only)" if a == b else f"{a:g}° to {b:g}°" for a, b in ranges)

@@ -18,7 +18,7 @@ from floorfit.plan.directions import dominant_directions_deg
 
 __all__ = ["wrap_deg", "arc_deg", "interpolate_heading", "default_step_deg", "rotation_displacement_m",
            "dominant_directions_deg", "HeadingCells", "make_heading_cells", "STEP_CHOICES_DEG",
-           "TARGET_ROTATION_ERROR_M", "GUARD_DEG", "refine_cells"]
+           "TARGET_ROTATION_ERROR_M", "GUARD_DEG", "refine_cells", "format_heading_ranges"]
 
 #: Candidate uniform steps, degrees (each divides 360).
 STEP_CHOICES_DEG = (5.0, 4.0, 3.0, 2.5, 2.0, 1.5, 1.25, 1.0)
@@ -178,3 +178,8 @@ def refine_cells(cells: HeadingCells, step_deg: float, around_deg, half_width_de
         hs = hs[:-1]
     gaps_next = np.diff(np.concatenate([hs, [hs[0] + 360.0]]))
     return HeadingCells(hs, np.roll(gaps_next, 1) / 2.0, gaps_next / 2.0, float(cells.step_deg))
+
+
+def format_heading_ranges(ranges) -> str:
+    """``"-99.5° to -81.5°, 90° (aligned only)"``: heading ranges in words (a single heading when from = to)."""
+    return ", ".join(f"{a:g}° (aligned only)" if a == b else f"{a:g}° to {b:g}°" for a, b in ranges)

@@ -3,7 +3,7 @@
 A coarse heading step errs towards "does not fit" by more than a fine one. When the coarse
 sound slices find no route but the coarse optimistic ones do, the two bounds part only where
 the optimistic route leaves the sound free space: :func:`pinch_headings` finds the headings
-of those poses, around which :func:`floorfit.motion.route_query.settle_coarse` refines the
+of those poses, around which :func:`floorfit.motion.coarse_route.settle_coarse` refines the
 heading step. Local frame, metres; headings in degrees.
 """
 
@@ -11,7 +11,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from floorfit.cspace.headings import arc_deg, wrap_deg
+from floorfit.cspace.collision import sample_motion
+from floorfit.cspace.headings import format_heading_ranges, wrap_deg
 from floorfit.cspace.slices import SliceSet
 
 __all__ = ["pinch_headings", "format_ranges", "COARSE_FINAL", "REFINE_HALF_WIDTH_STEPS", "PINCH_SAMPLE_M",
@@ -32,20 +33,14 @@ PINCH_SAMPLE_DEG = 0.5
 def pinch_headings(sound: SliceSet, path_local: np.ndarray) -> np.ndarray:
     """Headings (degrees) of the poses along ``path_local`` ((N, 3) local frame, linear
     interpolation between waypoints, the shorter arc for the heading) that lie outside the
-    ``sound`` slices' free space: where the sound and optimistic answers part, the pinch points."""
+    ``sound`` slices' free space: where the sound and optimistic answers part, the pinch points.
+    The motion is sampled with :func:`floorfit.cspace.collision.sample_motion` every
+    :data:`PINCH_SAMPLE_M` / :data:`PINCH_SAMPLE_DEG`."""
     p = np.asarray(path_local, dtype=float).reshape(-1, 3)
     if len(p) < 2:
         return np.zeros(0)
-    d = np.hypot(*np.diff(p[:, :2], axis=0).T)
-    turn = np.asarray(arc_deg(p[:-1, 2], p[1:, 2]), dtype=float)
-    n = np.maximum(1, np.ceil(np.maximum(d / PINCH_SAMPLE_M, np.abs(turn) / PINCH_SAMPLE_DEG))).astype(int)
-    seg = np.repeat(np.arange(len(d)), n)
-    t = (np.arange(n.sum()) - np.repeat(np.cumsum(n) - n, n)) / np.repeat(n, n)
-    poses = np.column_stack([p[seg, 0] + t * (p[seg + 1, 0] - p[seg, 0]), p[seg, 1] + t * (p[seg + 1, 1] - p[seg, 1]),
-                             wrap_deg(p[seg, 2] + t * turn[seg])])
-    poses = np.vstack([poses, p[-1:]])
+    poses = sample_motion(p, step_m=PINCH_SAMPLE_M, step_deg=PINCH_SAMPLE_DEG, radius_m=sound.vehicle.radius_m)
     return poses[~sound.are_free(poses), 2]
-
 
 
 def format_ranges(headings, half_width_deg: float) -> str:
@@ -57,4 +52,4 @@ def format_ranges(headings, half_width_deg: float) -> str:
             arcs[-1][1] = h + half_width_deg
         else:
             arcs.append([h - half_width_deg, h + half_width_deg])
-    return ", ".join(f"{a:g}° to {b:g}°" for a, b in arcs)
+    return format_heading_ranges(arcs)
