@@ -133,22 +133,38 @@ def make_heading_cells(step_deg: float, extra_deg=(), *, only=None, guard_deg: f
     if only is not None:
         hs = np.unique(np.round(wrap_deg(np.asarray(list(only), dtype=float)), 9))
     else:
-        if not (0 < step_deg <= 90):
-            raise ValueError("heading step must be in (0, 90] degrees")
-        n = int(round(360.0 / step_deg))
-        base = -180.0 + np.arange(n) * (360.0 / n)
+        base = _uniform_grid(step_deg)
         extra = np.asarray(list(extra_deg), dtype=float)
         if guard_deg > 0 and len(extra):
             extra = np.concatenate([extra, extra - guard_deg, extra + guard_deg])
-        hs = np.concatenate([base, wrap_deg(extra)])
-        hs = np.sort(np.round(hs, 9))
-        keep = np.concatenate([[True], np.diff(hs) > MERGE_DEG])
-        hs = hs[keep]
-        if len(hs) > 1 and (hs[0] + 360.0 - hs[-1]) <= MERGE_DEG:
-            hs = hs[:-1]
+        hs = _merged(np.concatenate([base, wrap_deg(extra)]))
     if len(hs) == 1:
         z = np.zeros(1)
         return HeadingCells(hs, z, z, 0.0)
+    return _nearest_arcs(hs, step_deg)
+
+
+def _uniform_grid(step_deg: float) -> np.ndarray:
+    """Headings every ``step_deg`` (degrees, the nearest step dividing 360°) from −180°."""
+    if not (0 < step_deg <= 90):
+        raise ValueError("heading step must be in (0, 90] degrees")
+    n = int(round(360.0 / step_deg))
+    return -180.0 + np.arange(n) * (360.0 / n)
+
+
+def _merged(hs: np.ndarray) -> np.ndarray:
+    """Headings (degrees, within ±180°) rounded to 1e-9°, sorted, those within :data:`MERGE_DEG`
+    of the previous one (across the ±180° seam too) dropped."""
+    hs = np.sort(np.round(hs, 9))
+    keep = np.concatenate([[True], np.diff(hs) > MERGE_DEG])
+    hs = hs[keep]
+    if len(hs) > 1 and (hs[0] + 360.0 - hs[-1]) <= MERGE_DEG:
+        hs = hs[:-1]
+    return hs
+
+
+def _nearest_arcs(hs: np.ndarray, step_deg: float) -> HeadingCells:
+    """Cells of sorted headings ``hs`` (at least two): each the arc of the circle nearest its heading."""
     gaps_next = np.diff(np.concatenate([hs, [hs[0] + 360.0]]))      # to next slice
     gaps_prev = np.roll(gaps_next, 1)
     return HeadingCells(hs, gaps_prev / 2.0, gaps_next / 2.0, float(step_deg))
@@ -163,21 +179,12 @@ def refine_cells(cells: HeadingCells, step_deg: float, around_deg, half_width_de
     are the arcs nearest each heading, as in :func:`make_heading_cells`; ``step_deg`` of the
     result stays that of ``cells`` (the coarsest step in the set). Degrees throughout.
     """
-    if not (0 < step_deg <= 90):
-        raise ValueError("heading step must be in (0, 90] degrees")
-    n = int(round(360.0 / step_deg))
-    grid = -180.0 + np.arange(n) * (360.0 / n)
+    grid = _uniform_grid(step_deg)
     around = np.asarray(list(around_deg), dtype=float).reshape(-1)
     if not len(around) or len(cells) < 2:
         return cells
     near = np.min(np.abs(arc_deg(grid[:, None], around[None, :])), axis=1) <= half_width_deg + 1e-9
-    hs = np.sort(np.round(wrap_deg(np.concatenate([cells.headings, grid[near]])), 9))
-    keep = np.concatenate([[True], np.diff(hs) > MERGE_DEG])
-    hs = hs[keep]
-    if len(hs) > 1 and (hs[0] + 360.0 - hs[-1]) <= MERGE_DEG:
-        hs = hs[:-1]
-    gaps_next = np.diff(np.concatenate([hs, [hs[0] + 360.0]]))
-    return HeadingCells(hs, np.roll(gaps_next, 1) / 2.0, gaps_next / 2.0, float(cells.step_deg))
+    return _nearest_arcs(_merged(wrap_deg(np.concatenate([cells.headings, grid[near]]))), cells.step_deg)
 
 
 def format_heading_ranges(ranges) -> str:
