@@ -46,7 +46,7 @@ def main(argv: list[str]) -> int:
             return out
         return run
 
-    wrapped = [(check, "build_slices", "slice_build_s"), (check, "slice_stage", "slice_stage_s"),
+    wrapped = [(check, "build_slices", "slice_build_s"), (check, "space_stages", "space_stages_s"),
                (check, "traffic_stage", "traffic_s"), (traffic, "station_routes", "traffic_routes_s")]
     kept = [getattr(mod, name) for mod, name, _ in wrapped]
     for mod, name, key in wrapped:

@@ -4,9 +4,9 @@
 It runs named stages in order, each a function with typed inputs and outputs that can be
 timed, reported in progress or skipped on its own:
 
-1. :func:`slice_stage`: heading cells, C-obstacles, sound slices and the roadmap (:mod:`floorfit.cspace`);
-2. :func:`clearance_stage`: the floor clearance raster people and vehicles are measured on (on a large
-   site, on a second process while the roadmap is built: :func:`space_stages`);
+1. :func:`space_stages`: heading cells, C-obstacles, sound slices and the roadmap (:mod:`floorfit.cspace`), and
+2. in the same function, the floor clearance raster people and vehicles are measured on (on a large
+   site, on a second process while the roadmap is built);
 3. :func:`floorfit.analysis.places.find_places`: roadmap regions merged into places, and their joins;
 4. :func:`floorfit.analysis.blocked.station_fit_findings` and
    :func:`~floorfit.analysis.blocked.pinch_findings`: ``blocked`` findings, then the station pairs they cut;
@@ -47,7 +47,7 @@ from floorfit.plan.site import Site
 from floorfit.plan.stations import Station, validate_stations
 from floorfit.vehicles.rigid import Vehicle
 
-__all__ = ["run_check", "rank_findings", "slice_stage", "clearance_stage", "space_stages", "manoeuvre_stage",
+__all__ = ["run_check", "rank_findings", "space_stages", "manoeuvre_stage",
            "MAP_MAX_CELLS", "PERSON_HEADROOM_M"]
 
 #: Headroom a person needs, metres: obstacles starting higher do not block people (common
@@ -59,6 +59,17 @@ _RASTER_PAD_M = 1.0
 
 def _noop(_msg: str) -> None:
     pass
+
+
+#: Obstacle pieces × slices from which the check does work on a second process (the clearance
+#: raster and half the roadmap beside the rest of the roadmap; the station-pair drives beside the
+#: clearance and turnability stages): below it, forking costs more than it saves.
+DRIVES_APART_MIN_WORK = POOL_MIN_WORK
+
+
+def _apart_pays(ctx: CheckContext, obstacles, n_cells: int) -> bool:
+    """More than one worker allowed and a large site (:data:`DRIVES_APART_MIN_WORK`)."""
+    return worker_count(ctx.workers) >= 2 and obstacles.piece_count * n_cells >= DRIVES_APART_MIN_WORK
 
 
 def _slices(ctx: CheckContext):
@@ -75,13 +86,6 @@ def _slices(ctx: CheckContext):
     slices = build_slices(plan, vehicle, cells=cells, workers=ctx.workers, obstacles=obstacles,
                           progress=getattr(ctx.progress, "update", None))
     return cells, obstacles, slices
-
-
-def slice_stage(ctx: CheckContext) -> SliceStage:
-    """Heading cells, C-obstacles, sound slices and their roadmap for the check's vehicle."""
-    cells, obstacles, slices = _slices(ctx)
-    ctx.progress("roadmap")
-    return SliceStage(cells=cells, obstacles=obstacles, slices=slices, roadmap=build_roadmap(slices))
 
 
 def _clearance_grid(ctx: CheckContext) -> tuple[tuple[float, float, float, float], float]:
@@ -102,25 +106,18 @@ def _clearance_on(plan: Plan, site: Site, bounds: tuple[float, float, float, flo
     return ClearanceStage(bounds=bounds, cell=cell, field=field, floor=floor)
 
 
-def clearance_stage(ctx: CheckContext) -> ClearanceStage:
-    """The floor clearance raster (5 cm cells, coarser on big sites) of the obstacles standing on the floor.
+def space_stages(ctx: CheckContext) -> tuple[SliceStage, ClearanceStage]:
+    """Heading cells, C-obstacles, sound slices and their roadmap for the check's vehicle; and the
+    floor clearance raster (5 cm cells, coarser on big sites) of the obstacles standing on the floor.
 
     Obstacles that start above the floor (an overhead duct, a shelf a low robot drives under)
     leave the floor open: where they stop a vehicle, that is a ``blocked`` finding with cause
-    ``height`` at the obstacle, not a separation of the drawing.
-    """
-    bounds, cell = _clearance_grid(ctx)
-    ctx.progress(f"clearance field ({cell * 100:.0f} cm cells)")
-    return _clearance_on(ctx.plan, ctx.site, bounds, cell)
-
-
-def space_stages(ctx: CheckContext) -> tuple[SliceStage, ClearanceStage]:
-    """:func:`slice_stage` and :func:`clearance_stage`. The clearance raster needs only the drawing:
-    on a large site with more than one worker it is computed on a second process while this one
-    builds the roadmap (the same function, so the same raster)."""
+    ``height`` at the obstacle, not a separation of the drawing. The raster needs only the
+    drawing: where a second process pays (:func:`_apart_pays`) it is computed there while this
+    one builds the roadmap (the same function, so the same raster)."""
     cells, obstacles, slices = _slices(ctx)
     bounds, cell = _clearance_grid(ctx)
-    apart = worker_count(ctx.workers) >= 2 and obstacles.piece_count * len(cells) >= DRIVES_APART_MIN_WORK
+    apart = _apart_pays(ctx, obstacles, len(cells))
     raster = start(_clearance_on, ctx.plan, ctx.site, bounds, cell, workers=ctx.workers if apart else 1)
     try:
         if raster.apart:
@@ -177,15 +174,11 @@ def _manoeuvre_part(ctx: CheckContext, cs: SliceStage, routes, reach: dict, cuts
     return findings, route_dicts, reach, cuts, ctx.notes[n0:]
 
 
-#: Obstacle pieces × slices above which the station-pair drives run on a second process while
-#: the clearance and turnability stages run here (below it, forking costs more than it saves).
-DRIVES_APART_MIN_WORK = POOL_MIN_WORK
-
-
 def _drives_apart(ctx: CheckContext, cs: SliceStage, routes) -> bool:
-    """Whether the manoeuvre stage goes to a second process: more than one worker allowed, a
-    large site, and drives to plan (a car's manoeuvres, a manoeuvre budget or swept routes)."""
-    if worker_count(ctx.workers) < 2 or cs.obstacles.piece_count * len(cs.cells) < DRIVES_APART_MIN_WORK:
+    """Whether the manoeuvre stage goes to a second process: a second process pays
+    (:func:`_apart_pays`) and there are drives to plan (a car's manoeuvres, a manoeuvre budget
+    or swept routes)."""
+    if not _apart_pays(ctx, cs.obstacles, len(cs.cells)):
         return False
     site, vehicle = ctx.site, ctx.vehicle
     pairs = len(ctx.stations) > 1 and (vehicle.mode == "car" or budget_applies(vehicle, site.max_direction_changes))
