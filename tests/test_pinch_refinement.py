@@ -98,3 +98,31 @@ def test_rooms_without_a_door_are_unreachable_on_the_coarse_bounds_alone():
     assert got.status == everywhere.status == "unreachable"
     assert any("not even the vehicle shrunk" in n for n in got.notes)
     assert got.settings["heading_step_deg"] > everywhere.settings["heading_step_deg"]
+
+
+def test_route_command_says_which_slices_were_kept_from_the_coarse_ones(tmp_path, capsys):
+    import re
+
+    import ezdxf
+    from test_reachability_reference import moretti_length
+
+    from floorfit.cli import main
+
+    # a drawn L-shaped corridor (1.5 m then 2.0 m wide) and an omni base 0.1 m shorter than the
+    # longest 0.6 m wide rectangle that turns it (Moretti's closed form, as in test_reachability_reference)
+    a, b, arm = 1.5, 2.0, 6.0
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 6
+    doc.modelspace().add_lwpolyline([(-arm, 0), (b, 0), (b, a + arm), (0, a + arm), (0, a), (-arm, a)], close=True,
+                                    dxfattribs={"layer": "A-WALL"})
+    doc.saveas(tmp_path / "corner.dxf")
+    length = moretti_length(a, b, 0.6) - 0.1
+    (tmp_path / "couch.toml").write_text(f'name = "couch"\n[footprint]\nwidth = 0.6\nlength = {length:.4f}\n'
+                                         f'[motion]\nmode = "omni"\n')
+    code = main(["route", str(tmp_path / "corner.dxf"), "--vehicle", str(tmp_path / "couch.toml"),
+                 "--start=-4,0.75,0", "--goal=1,5.5,90", "--no-cache", "--quiet"])
+    out = capsys.readouterr().out
+    assert code == 0 and "couch: reachable" in out and "refined to" in out
+    built, kept = map(int, re.search(r"slices: (\d+) built, (\d+) kept from the coarse slices", out).groups())
+    headings = int(re.search(r"heading step [\d.]+°, (\d+) slices", out).group(1))
+    assert built > 0 and kept > 0 and built + kept <= headings

@@ -211,11 +211,13 @@ def _lazy_window(plan, vehicle, start, goal):
 
 
 def _slices_line(slices, cache: str | None, window=None, plan=None) -> str:
-    """Where the slices came from: built (on how many processes, for which part of the drawing) or
-    read from the disk cache."""
-    built = len(set(int(t) for t in slices.twins)) - slices.reused if slices.twins is not None \
-        else len(slices) - slices.reused
+    """Where the slices came from: built (on how many processes, for which part of the drawing), kept
+    from the coarse slices a refined set grew from, or read from the disk cache."""
+    computed = len(set(int(t) for t in slices.twins)) if slices.twins is not None else len(slices)
+    built = computed - slices.reused - slices.kept
     text = f"  slices: {built} built" + (f" on {slices.workers_used} processes" if slices.workers_used > 1 else "")
+    if slices.kept:
+        text += f", {slices.kept} kept from the coarse slices"
     if window is not None:
         (ax, ay), (bx, by) = plan.to_drawing(window[0], window[1]), plan.to_drawing(window[2], window[3])
         text += (f" for x {ax:.1f} .. {bx:.1f} m, y {ay:.1f} .. {by:.1f} m around start and goal only, which settled "

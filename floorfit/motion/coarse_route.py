@@ -24,9 +24,9 @@ def settle_coarse(plan: Plan, vehicle: Vehicle, start, goal, coarse: SliceSet, f
                   search: Callable[..., Any], workers: int | None = 1, limits: DriveLimits | None = None,
                   progress: Callable[[str], None] | None = None) -> tuple[Any, SliceSet] | None:
     """After a coarse sound try found no route (``found``, ``unreachable`` on the sound slices ``coarse``
-    of :func:`coarse_cells`): settle the answer there if the
-    coarse bounds allow it (the answer and the sound slices it stands on), else None (the default
-    step decides, as before).
+    of :func:`~floorfit.motion.route_query.coarse_cells`): the answer settled on the coarse bounds
+    and the sound slices it stands on, where they allow it; else None (the default step decides,
+    as before).
 
     * The coarse **optimistic** slices (the vehicle shrunk by the coarse tolerance, which only
       grows with the step) do not connect the poses either: ``unreachable``, for every step.
